@@ -1,0 +1,150 @@
+//! Command-line parsing and the commands: each turns validated arguments into library calls, adds
+//! context to errors once, and maps outcomes to exit codes (0 success, 1 the run or target failed,
+//! 2 bad input or usage).
+
+mod commands;
+
+use clap::{Args, Parser, Subcommand};
+use ringtrue::settings::{MethodName, Overrides, Restart, Scale, Start};
+use ringtrue::units::{parse_value, Quantity};
+use std::path::PathBuf;
+
+#[derive(Parser, Debug)]
+#[command(name = "ringtrue", version, about = "Measures the accuracy of transient integration settings on your circuit")]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+enum Command {
+    /// Check a circuit file and summarize it.
+    Check {
+        /// The circuit file (YAML).
+        file: PathBuf,
+    },
+    /// Run one setting and write the watched signals at every accepted step.
+    Simulate {
+        /// The circuit file (YAML).
+        file: PathBuf,
+        #[command(flatten)]
+        settings: SettingFlags,
+        /// Where to write the waveform CSV (time, then the watched signals).
+        #[arg(long, value_name = "OUT.csv")]
+        csv: PathBuf,
+        /// Where to write the run's statistics as JSON.
+        #[arg(long, value_name = "STATS.json")]
+        json: Option<PathBuf>,
+    },
+}
+
+fn time_value(s: &str) -> Result<f64, String> {
+    parse_value(s, Quantity::Time).map_err(|e| e.to_string())
+}
+fn plain_value(s: &str) -> Result<f64, String> {
+    parse_value(s, Quantity::Plain).map_err(|e| e.to_string())
+}
+fn volt_value(s: &str) -> Result<f64, String> {
+    parse_value(s, Quantity::Voltage).map_err(|e| e.to_string())
+}
+fn amp_value(s: &str) -> Result<f64, String> {
+    parse_value(s, Quantity::Current).map_err(|e| e.to_string())
+}
+fn named<T: std::str::FromStr<Err = ringtrue::settings::UnknownName>>(s: &str) -> Result<T, String> {
+    s.parse().map_err(|e: ringtrue::settings::UnknownName| e.to_string())
+}
+
+/// The settings of one cell; any given here override the circuit file's `run:` map.
+#[derive(Args, Debug, Clone, Default)]
+struct SettingFlags {
+    /// Integration method: backward-euler, trapezoidal, bdf2 or tr-bdf2.
+    #[arg(long, value_parser = named::<MethodName>)]
+    method: Option<MethodName>,
+    /// Relative tolerance of the local truncation error test.
+    #[arg(long, value_parser = plain_value)]
+    rtol: Option<f64>,
+    /// Absolute tolerance for voltages (V).
+    #[arg(long = "atol-v", value_parser = volt_value)]
+    atol_v: Option<f64>,
+    /// Absolute tolerance for currents (A).
+    #[arg(long = "atol-i", value_parser = amp_value)]
+    atol_i: Option<f64>,
+    /// Factor on the tolerance in the LTE test (above 1 loosens).
+    #[arg(long = "lte-factor", value_parser = plain_value)]
+    lte_factor: Option<f64>,
+    /// Largest step (s), e.g. 10n.
+    #[arg(long = "max-step", value_parser = time_value)]
+    max_step: Option<f64>,
+    /// Run with this fixed step (s), without LTE control.
+    #[arg(long = "fixed-step", value_parser = time_value)]
+    fixed_step: Option<f64>,
+    /// What rtol is relative to: value, signal_peak or circuit_peak.
+    #[arg(long, value_parser = named::<Scale>)]
+    scale: Option<Scale>,
+    /// First step after a breakpoint: backward-euler or same.
+    #[arg(long, value_parser = named::<Restart>)]
+    restart: Option<Restart>,
+    /// How the run starts: operating_point or initial_conditions.
+    #[arg(long, value_parser = named::<Start>)]
+    start: Option<Start>,
+    /// Most steps (accepted and rejected) the run may take.
+    #[arg(long = "step-budget")]
+    step_budget: Option<u64>,
+}
+
+impl SettingFlags {
+    fn overrides(&self) -> Overrides {
+        Overrides {
+            method: self.method,
+            rtol: self.rtol,
+            atol_v: self.atol_v,
+            atol_i: self.atol_i,
+            lte_factor: self.lte_factor,
+            max_step: self.max_step,
+            fixed_step: self.fixed_step,
+            scale: self.scale,
+            restart: self.restart,
+            start: self.start,
+            step_budget: self.step_budget,
+        }
+    }
+}
+
+/// How a command ended.
+pub enum Failure {
+    /// The input or the usage is wrong (exit 2).
+    BadInput(anyhow::Error),
+    /// The work ran but did not succeed (exit 1).
+    NotMet(anyhow::Error),
+}
+
+pub fn run() -> i32 {
+    let cli = match Cli::try_parse() {
+        Ok(c) => c,
+        Err(e) => {
+            let code = if e.use_stderr() { 2 } else { 0 };
+            let _ = e.print();
+            return code;
+        }
+    };
+    let result = match cli.command {
+        Command::Check { file } => commands::check(&file),
+        Command::Simulate {
+            file,
+            settings,
+            csv,
+            json,
+        } => commands::simulate(&file, &settings.overrides(), &csv, json.as_deref()),
+    };
+    match result {
+        Ok(()) => 0,
+        Err(Failure::BadInput(e)) => {
+            eprintln!("error: {e:#}");
+            2
+        }
+        Err(Failure::NotMet(e)) => {
+            eprintln!("error: {e:#}");
+            1
+        }
+    }
+}

@@ -1,0 +1,503 @@
+//! The transient driver: one loop that owns acceptance, rejection, step sizes and breakpoints, for every
+//! method. Methods (`methods.rs`) only attempt a step and say how their error is estimated.
+//!
+//! Step control: the local truncation error of each unknown is compared with
+//! `lte_factor * (rtol * scale + atol)`, atol being `atol_v` for voltages and `atol_i` for currents.
+//! Methods without an embedded estimate have their error estimated from the divided difference of order
+//! p + 1 of the last accepted points (common practice); where too few points of the same formula exist,
+//! after a breakpoint or a change of formula, the step is checked by step doubling instead (one step of h
+//! against two of h / 2, and the two half steps are kept). Steps land exactly on every breakpoint.
+
+pub mod error;
+pub mod methods;
+pub mod newton;
+pub mod start;
+
+use crate::circuit::Circuit;
+use crate::equations::{System, UnknownKind};
+use crate::settings::{MethodName, Restart, Scale, Settings, Start};
+pub use error::RunError;
+use methods::{Estimate, Method, Point, Solved, StageSolver, Trial};
+use newton::{Newton, NewtonFailure, NewtonTolerances, Stage};
+use std::collections::VecDeque;
+use std::time::Instant;
+
+/// What a run cost.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct Stats {
+    /// Accepted steps.
+    pub steps: u64,
+    pub rejected_steps: u64,
+    pub newton_iterations: u64,
+    pub factorizations: u64,
+    /// Wall-clock seconds of the run on its thread (the only field that varies between identical runs).
+    pub cpu_seconds: f64,
+}
+
+/// The watched signals at every accepted time point.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Trajectory {
+    pub labels: Vec<String>,
+    pub times: Vec<f64>,
+    /// `values[k][j]`: signal `k` at `times[j]`.
+    pub values: Vec<Vec<f64>>,
+}
+
+impl Trajectory {
+    pub fn signal(&self, label: &str) -> Option<&[f64]> {
+        self.labels
+            .iter()
+            .position(|l| l == label)
+            .map(|k| self.values[k].as_slice())
+    }
+}
+
+/// A finished run.
+#[derive(Debug, Clone)]
+pub struct Run {
+    pub trajectory: Trajectory,
+    pub stats: Stats,
+    /// The state at the last accepted point.
+    pub final_state: Vec<f64>,
+}
+
+/// Runs `circuit` with `settings` (the circuit's own `run:` settings are not applied here; see
+/// `Settings::apply`).
+pub fn simulate(circuit: &Circuit, settings: &Settings) -> Result<Run, RunError> {
+    let sys = System::new(circuit);
+    simulate_system(&sys, circuit.run.stop, &circuit.breakpoints(), settings)
+}
+
+/// The state at t = 0 for the given start.
+pub fn initial_state(sys: &System, settings: &Settings, newton: &mut Newton) -> Result<Vec<f64>, RunError> {
+    let tol = NewtonTolerances::from_step_tolerances(&settings.tolerances, 100);
+    match settings.start {
+        Start::OperatingPoint => start::operating_point(sys, &tol, newton),
+        Start::InitialConditions => start::initial_conditions(sys, &tol, newton),
+    }
+}
+
+/// The driver's view of the history, and its stage solver.
+struct Solver<'a> {
+    sys: &'a System,
+    newton: Newton,
+    tol: NewtonTolerances,
+    cur: Point,
+    prev: Option<Point>,
+    /// Extrapolate Newton guesses only from points after this time (the last breakpoint).
+    segment_start: f64,
+}
+
+impl StageSolver for Solver<'_> {
+    fn current(&self) -> &Point {
+        &self.cur
+    }
+    fn previous(&self) -> Option<&Point> {
+        self.prev.as_ref()
+    }
+    fn solve(&mut self, alpha: f64, r: &[f64], t: f64, guess: &[f64]) -> Result<Solved, NewtonFailure> {
+        let stage = Stage {
+            sys: self.sys,
+            alpha,
+            r,
+            t,
+            source_factor: 1.0,
+            shunt: 0.0,
+        };
+        let mut x = guess.to_vec();
+        self.newton.solve(&stage, &mut x, &self.tol)?;
+        let mut q = vec![0.0; x.len()];
+        self.sys.charge_into(&x, &mut q);
+        let qdot = q.iter().zip(r).map(|(q, r)| alpha * q - r).collect();
+        Ok(Solved { x, q, qdot })
+    }
+    fn solve_with_last_jacobian(&self, v: &mut [f64]) {
+        if let Some(lu) = self.newton.last_factorization() {
+            lu.solve(v);
+        }
+    }
+    fn guess(&self, t: f64) -> Vec<f64> {
+        match &self.prev {
+            Some(p) if p.t >= self.segment_start && self.cur.t > p.t => {
+                let s = (t - self.cur.t) / (self.cur.t - p.t);
+                self.cur.x.iter().zip(&p.x).map(|(c, p)| c + s * (c - p)).collect()
+            }
+            _ => self.cur.x.clone(),
+        }
+    }
+}
+
+/// Local-error test against the tolerances.
+struct ErrorNorm<'a> {
+    sys: &'a System,
+    settings: &'a Settings,
+    /// Largest |x_i| over the accepted points so far.
+    peak: Vec<f64>,
+    peak_v: f64,
+    peak_i: f64,
+}
+
+impl ErrorNorm<'_> {
+    fn observe(&mut self, x: &[f64]) {
+        for (i, (p, v)) in self.peak.iter_mut().zip(x).enumerate() {
+            *p = p.max(v.abs());
+            if !self.sys.unknowns[i].controls_step {
+                continue;
+            }
+            match self.sys.unknowns[i].kind {
+                UnknownKind::Voltage => self.peak_v = self.peak_v.max(v.abs()),
+                UnknownKind::Current => self.peak_i = self.peak_i.max(v.abs()),
+            }
+        }
+    }
+
+    /// max_i |err_i| / (lte_factor (rtol scale_i + atol_i)) over the unknowns that control the step.
+    fn ratio(&self, err: &[f64], old: &[f64], new: &[f64]) -> f64 {
+        let t = &self.settings.tolerances;
+        let mut worst: f64 = 0.0;
+        for (i, u) in self.sys.unknowns.iter().enumerate() {
+            if !u.controls_step {
+                continue;
+            }
+            let here = old[i].abs().max(new[i].abs());
+            let (atol, kind_peak) = match u.kind {
+                UnknownKind::Voltage => (t.atol_v, self.peak_v),
+                UnknownKind::Current => (t.atol_i, self.peak_i),
+            };
+            let scale = match t.scale {
+                Scale::Value => here,
+                Scale::SignalPeak => self.peak[i].max(here),
+                Scale::CircuitPeak => kind_peak.max(here),
+            };
+            let r = err[i].abs() / (t.lte_factor * (t.rtol * scale + atol));
+            if !(r <= worst) {
+                worst = if r.is_nan() { f64::INFINITY } else { r };
+            }
+        }
+        worst
+    }
+}
+
+/// The divided difference of order `pts.len() - 1` of each unknown, times its factorial: an estimate of
+/// the derivative of that order.
+fn derivative_estimate(pts: &[(f64, &[f64])]) -> Vec<f64> {
+    let m = pts.len();
+    let n = pts[0].1.len();
+    let mut out = vec![0.0; n];
+    let mut dd = vec![0.0; m];
+    let factorial: f64 = (1..m).map(|k| k as f64).product();
+    for (i, o) in out.iter_mut().enumerate() {
+        for (j, d) in dd.iter_mut().enumerate() {
+            *d = pts[j].1[i];
+        }
+        for level in 1..m {
+            for j in (level..m).rev() {
+                dd[j] = (dd[j] - dd[j - 1]) / (pts[j].0 - pts[j - level].0);
+            }
+        }
+        *o = dd[m - 1] * factorial;
+    }
+    out
+}
+
+struct Recorder<'a> {
+    sys: &'a System,
+    traj: Trajectory,
+}
+
+impl Recorder<'_> {
+    fn record(&mut self, t: f64, x: &[f64]) {
+        self.traj.times.push(t);
+        for (k, v) in self.sys.probe_values(x, t).into_iter().enumerate() {
+            self.traj.values[k].push(v);
+        }
+    }
+}
+
+/// How many points of history the divided-difference estimate of an order-p formula needs.
+fn points_needed(order: u32) -> usize {
+    order as usize + 1
+}
+
+/// Step shrinks after a breakpoint: the first step is a quarter of the step before it.
+const RESTART_FRACTION: f64 = 0.25;
+/// Step after a Newton failure, as a fraction of the failed step (common practice).
+const NEWTON_CUT: f64 = 0.25;
+
+/// Runs the assembled equations from t = 0 to `stop`, landing on each of `breakpoints` (sorted, in
+/// (0, stop], ending with stop).
+pub fn simulate_system(sys: &System, stop: f64, breakpoints: &[f64], settings: &Settings) -> Result<Run, RunError> {
+    settings.validate()?;
+    let clock = Instant::now();
+    let sc = &settings.steps;
+    let mut start_newton = Newton::new(sys.size());
+    let x0 = initial_state(sys, settings, &mut start_newton)?;
+    let n = sys.size();
+    let mut q0 = vec![0.0; n];
+    sys.charge_into(&x0, &mut q0);
+    // The derivative at t = 0 on the rows that hold a charge: b(0) - i(x0, 0).
+    let mut b0 = vec![0.0; n];
+    let mut i0 = vec![0.0; n];
+    sys.sources_into(0.0, 1.0, &mut b0);
+    sys.current_into(&x0, 0.0, &mut i0, None);
+    let qdot0: Vec<f64> = (0..n)
+        .map(|r| if sys.dynamic_rows[r] { b0[r] - i0[r] } else { 0.0 })
+        .collect();
+
+    let mut solver = Solver {
+        sys,
+        newton: Newton::new(n),
+        tol: NewtonTolerances::from_step_tolerances(&settings.tolerances, 30),
+        cur: Point {
+            t: 0.0,
+            x: x0.clone(),
+            q: q0,
+            qdot: qdot0,
+        },
+        prev: None,
+        segment_start: 0.0,
+    };
+    solver.newton.work = start_newton.work;
+    let mut norm = ErrorNorm {
+        sys,
+        settings,
+        peak: vec![0.0; n],
+        peak_v: 0.0,
+        peak_i: 0.0,
+    };
+    norm.observe(&x0);
+    let mut rec = Recorder {
+        sys,
+        traj: Trajectory {
+            labels: sys.probe_labels(),
+            times: Vec::new(),
+            values: vec![Vec::new(); sys.probe_labels().len()],
+        },
+    };
+    rec.record(0.0, &x0);
+
+    let mut stats = Stats::default();
+    let h_max = sc.effective_max_step(stop);
+    let h_min = sc.min_step_fraction * stop;
+    let main_method = methods::method(settings.method);
+    let be = methods::method(MethodName::BackwardEuler);
+    let mut bp_idx = 0;
+    let mut h = sc.fixed_step.unwrap_or(h_max.min(breakpoints.first().copied().unwrap_or(stop)) * 0.01);
+    let mut at_restart = true;
+    let mut window: VecDeque<(f64, Vec<f64>)> = VecDeque::from([(0.0, x0)]);
+    let mut window_formula: Option<MethodName> = None;
+
+    while solver.cur.t < stop {
+        if stats.steps + stats.rejected_steps >= sc.step_budget {
+            return Err(RunError::StepBudget {
+                time: solver.cur.t,
+                stop,
+                budget: sc.step_budget,
+            });
+        }
+        let t = solver.cur.t;
+        let formula: &dyn Method = if at_restart && sc.restart == Restart::BackwardEuler {
+            be
+        } else {
+            main_method
+        };
+        // Land on the next breakpoint without leaving a sliver.
+        let bp = breakpoints.get(bp_idx).copied().unwrap_or(stop);
+        let limit = if sc.fixed_step.is_some() { f64::INFINITY } else { h_max };
+        let mut hh = h.min(limit);
+        let remaining = bp - t;
+        let mut lands = false;
+        if hh >= remaining {
+            hh = remaining;
+            lands = true;
+        } else if remaining - hh < 0.1 * hh {
+            if remaining <= limit {
+                hh = remaining;
+                lands = true;
+            } else {
+                hh = remaining / 2.0;
+            }
+        }
+        if hh < h_min || t + hh == t {
+            return Err(RunError::StepTooSmall { time: t, step: hh });
+        }
+
+        let trial = match formula.attempt(&mut solver, hh) {
+            Ok(tr) => tr,
+            Err(NewtonFailure::Singular { unknown }) => {
+                return Err(RunError::Singular {
+                    time: t + hh,
+                    unknown: sys.describe_unknown(unknown),
+                })
+            }
+            Err(_) => {
+                stats.rejected_steps += 1;
+                h = hh * NEWTON_CUT;
+                continue;
+            }
+        };
+
+        // The formula actually used decides which history is valid for the estimate.
+        if window_formula != Some(trial.used) {
+            let last = window.pop_back().expect("the window holds the present point");
+            window.clear();
+            window.push_back(last);
+            window_formula = Some(trial.used);
+        }
+
+        let p = trial.order as f64;
+        let (accepted_points, next_h): (Vec<Solved>, f64) = if sc.fixed_step.is_some() {
+            (vec![trial.point], sc.fixed_step.unwrap_or(hh))
+        } else {
+            let err_and_base = match &trial.estimate {
+                Estimate::Embedded(e) => Some((e.clone(), hh)),
+                Estimate::FromHistory { coefficient } if window.len() >= points_needed(trial.order) => {
+                    let k = points_needed(trial.order);
+                    let mut pts: Vec<(f64, &[f64])> = window.iter().skip(window.len() - k).map(|(t, x)| (*t, x.as_slice())).collect();
+                    pts.push((t + hh, trial.point.x.as_slice()));
+                    let d = derivative_estimate(&pts);
+                    Some((d.into_iter().map(|v| v * coefficient).collect(), hh))
+                }
+                Estimate::FromHistory { .. } => None,
+            };
+            match err_and_base {
+                Some((err, base)) => {
+                    let ratio = norm.ratio(&err, &solver.cur.x, &trial.point.x);
+                    let factor = step_factor(ratio, p, sc.safety);
+                    if ratio <= 1.0 {
+                        (vec![trial.point], base * factor.min(sc.growth_limit))
+                    } else {
+                        stats.rejected_steps += 1;
+                        h = base * factor.clamp(sc.shrink_limit, 0.9);
+                        continue;
+                    }
+                }
+                None => {
+                    // Step doubling with the formula that was used.
+                    let used = methods::method(trial.used);
+                    match double_check(&mut solver, used, &trial, hh, &norm, sc.safety) {
+                        Ok(Doubled::Accept { mid, end, factor }) => (vec![mid, end], hh / 2.0 * factor.min(sc.growth_limit)),
+                        Ok(Doubled::Reject { factor }) => {
+                            stats.rejected_steps += 1;
+                            h = hh / 2.0 * factor.clamp(sc.shrink_limit, 0.9);
+                            continue;
+                        }
+                        Err(NewtonFailure::Singular { unknown }) => {
+                            return Err(RunError::Singular {
+                                time: t + hh,
+                                unknown: sys.describe_unknown(unknown),
+                            })
+                        }
+                        Err(_) => {
+                            stats.rejected_steps += 1;
+                            h = hh * NEWTON_CUT;
+                            continue;
+                        }
+                    }
+                }
+            }
+        };
+
+        let count = accepted_points.len();
+        for (j, pt) in accepted_points.into_iter().enumerate() {
+            let last = j + 1 == count;
+            let tj = if last && lands { bp } else { t + hh * (j + 1) as f64 / count as f64 };
+            norm.observe(&pt.x);
+            rec.record(tj, &pt.x);
+            window.push_back((tj, pt.x.clone()));
+            if window.len() > 4 {
+                window.pop_front();
+            }
+            let new = Point {
+                t: tj,
+                x: pt.x,
+                q: pt.q,
+                qdot: pt.qdot,
+            };
+            solver.prev = Some(std::mem::replace(&mut solver.cur, new));
+            stats.steps += 1;
+        }
+        h = next_h;
+        at_restart = false;
+        if lands {
+            bp_idx += 1;
+            at_restart = true;
+            solver.segment_start = bp;
+            let last = window.pop_back().expect("just pushed");
+            window.clear();
+            window.push_back(last);
+            window_formula = None;
+            if sc.fixed_step.is_none() {
+                h *= RESTART_FRACTION;
+            }
+        }
+    }
+    stats.newton_iterations = solver.newton.work.newton_iterations;
+    stats.factorizations = solver.newton.work.factorizations;
+    stats.cpu_seconds = clock.elapsed().as_secs_f64();
+    Ok(Run {
+        trajectory: rec.traj,
+        stats,
+        final_state: solver.cur.x,
+    })
+}
+
+/// The factor by which the step that produced error ratio `ratio` should change.
+fn step_factor(ratio: f64, order: f64, safety: f64) -> f64 {
+    if ratio <= 0.0 {
+        return f64::INFINITY;
+    }
+    safety * ratio.powf(-1.0 / (order + 1.0))
+}
+
+enum Doubled {
+    Accept { mid: Solved, end: Solved, factor: f64 },
+    Reject { factor: f64 },
+}
+
+/// Checks `full` (one step of `h`) against two steps of `h / 2` with the same formula. The error of each
+/// half step is (x_half - x_full) / (2 (2^p - 1)) (Richardson extrapolation; Hairer, Norsett & Wanner,
+/// Solving ODEs I, II.4).
+fn double_check(
+    solver: &mut Solver,
+    method: &dyn Method,
+    full: &Trial,
+    h: f64,
+    norm: &ErrorNorm,
+    safety: f64,
+) -> Result<Doubled, NewtonFailure> {
+    let half1 = method.attempt(solver, h / 2.0)?;
+    let saved_cur = solver.cur.clone();
+    let saved_prev = solver.prev.clone();
+    let mid_point = Point {
+        t: saved_cur.t + h / 2.0,
+        x: half1.point.x.clone(),
+        q: half1.point.q.clone(),
+        qdot: half1.point.qdot.clone(),
+    };
+    solver.prev = Some(std::mem::replace(&mut solver.cur, mid_point));
+    let half2 = method.attempt(solver, h / 2.0);
+    solver.cur = saved_cur;
+    solver.prev = saved_prev;
+    let half2 = half2?;
+    let p = full.order as f64;
+    let denom = 2.0 * (2f64.powf(p) - 1.0);
+    let err: Vec<f64> = half2
+        .point
+        .x
+        .iter()
+        .zip(&full.point.x)
+        .map(|(a, b)| (a - b) / denom)
+        .collect();
+    let ratio = norm.ratio(&err, &solver.cur.x, &half2.point.x);
+    let factor = step_factor(ratio, p, safety);
+    Ok(if ratio <= 1.0 {
+        Doubled::Accept {
+            mid: half1.point,
+            end: half2.point,
+            factor,
+        }
+    } else {
+        Doubled::Reject { factor }
+    })
+}

@@ -1,0 +1,289 @@
+//! Newton's method for the circuit equations, with damping, a convergence test on both the update and
+//! the residual, and reuse of the factorization when the Jacobian cannot have changed.
+
+use crate::equations::matrix::{Lu, Matrix, Singular};
+use crate::equations::{System, UnknownKind};
+
+/// A set of equations F(x) = 0 that Newton can solve.
+pub trait Equations {
+    fn size(&self) -> usize;
+    /// F(x) into `f`; the magnitude of the largest term of each row into `scale` (for the residual test);
+    /// the Jacobian into `jac` when asked.
+    fn evaluate(&self, x: &[f64], f: &mut [f64], scale: &mut [f64], jac: Option<&mut Matrix>);
+    /// A factor in (0, 1] by which to shorten the update `dx` from `x`.
+    fn damping(&self, _x: &[f64], _dx: &[f64]) -> f64 {
+        1.0
+    }
+    /// `Some(key)` when the Jacobian is constant for a given key (a linear circuit at a given step).
+    fn jacobian_key(&self) -> Option<u64> {
+        None
+    }
+    /// Whether unknown `i` is a voltage or a current (for absolute tolerances).
+    fn unknown_kind(&self, i: usize) -> UnknownKind;
+    /// Whether row `r` balances currents or voltages.
+    fn row_kind(&self, r: usize) -> UnknownKind;
+}
+
+/// When Newton has converged.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct NewtonTolerances {
+    pub rtol: f64,
+    pub atol_v: f64,
+    pub atol_i: f64,
+    pub max_iterations: usize,
+}
+
+impl NewtonTolerances {
+    /// Newton tolerances a hundred times tighter than the step-control tolerances, so that the
+    /// iteration error never competes with the truncation error (common practice).
+    pub fn from_step_tolerances(t: &crate::settings::Tolerances, max_iterations: usize) -> Self {
+        NewtonTolerances {
+            rtol: (t.rtol * 1e-2).max(1e-14),
+            atol_v: t.atol_v * 1e-2,
+            atol_i: t.atol_i * 1e-2,
+            max_iterations,
+        }
+    }
+}
+
+/// Why Newton stopped without converging.
+#[derive(Debug, Clone, PartialEq)]
+pub enum NewtonFailure {
+    /// The iteration limit was reached; `worst_row` had the largest scaled residual.
+    NoConvergence { worst_row: usize, residual: f64 },
+    /// The Jacobian was singular in the column of `unknown`.
+    Singular { unknown: usize },
+    /// The iterate stopped being finite.
+    NotFinite,
+}
+
+/// Counters that a run reports.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct Work {
+    pub newton_iterations: u64,
+    pub factorizations: u64,
+}
+
+/// How many constant-Jacobian factorizations are kept (TR-BDF2's two stages and step doubling's two
+/// step sizes alternate).
+const CACHE_SLOTS: usize = 4;
+
+/// Newton's reusable storage and its cached factorization.
+#[derive(Debug, Clone)]
+pub struct Newton {
+    f: Vec<f64>,
+    scale: Vec<f64>,
+    dx: Vec<f64>,
+    jac: Matrix,
+    /// Factorizations of constant Jacobians by key, most recent last (a few steps alternate).
+    cache: Vec<(u64, Lu)>,
+    /// Which factorization the last iteration used: an index into `cache`, or `usize::MAX` for `last_lu`.
+    last_used: usize,
+    last_lu: Option<Lu>,
+    pub work: Work,
+}
+
+impl Newton {
+    pub fn new(n: usize) -> Self {
+        Newton {
+            f: vec![0.0; n],
+            scale: vec![0.0; n],
+            dx: vec![0.0; n],
+            jac: Matrix::new(n),
+            cache: Vec::new(),
+            last_used: usize::MAX,
+            last_lu: None,
+            work: Work::default(),
+        }
+    }
+
+    /// The factorization used by the last iteration (for error estimates that need the Jacobian).
+    pub fn last_factorization(&self) -> Option<&Lu> {
+        if self.last_used == usize::MAX {
+            self.last_lu.as_ref()
+        } else {
+            self.cache.get(self.last_used).map(|(_, lu)| lu)
+        }
+    }
+
+    /// Solves `eq` from the guess in `x`. A linear problem (one with a Jacobian key) is solved by one
+    /// exact step.
+    pub fn solve<E: Equations>(
+        &mut self,
+        eq: &E,
+        x: &mut [f64],
+        tol: &NewtonTolerances,
+    ) -> Result<(), NewtonFailure> {
+        let n = eq.size();
+        if self.f.len() != n {
+            *self = Newton {
+                work: self.work,
+                ..Newton::new(n)
+            };
+        }
+        let key = eq.jacobian_key();
+        let mut update_ok = false;
+        for k in 0..=tol.max_iterations {
+            let slot = key.and_then(|kk| self.cache.iter().position(|(ck, _)| *ck == kk));
+            let cached = slot.is_some();
+            if let Some(i) = slot {
+                self.last_used = i;
+            }
+            if cached {
+                eq.evaluate(x, &mut self.f, &mut self.scale, None);
+            } else {
+                self.jac.zero();
+                eq.evaluate(x, &mut self.f, &mut self.scale, Some(&mut self.jac));
+            }
+            if self.f.iter().any(|v| !v.is_finite()) {
+                return Err(NewtonFailure::NotFinite);
+            }
+            if k > 0 && update_ok && self.residual_ok(eq, tol) {
+                return Ok(());
+            }
+            if k == tol.max_iterations {
+                break;
+            }
+            if !cached {
+                let lu = self.jac.factor().map_err(|Singular { column }| NewtonFailure::Singular { unknown: column })?;
+                self.work.factorizations += 1;
+                match key {
+                    Some(kk) => {
+                        if self.cache.len() == CACHE_SLOTS {
+                            self.cache.remove(0);
+                        }
+                        self.cache.push((kk, lu));
+                        self.last_used = self.cache.len() - 1;
+                    }
+                    None => {
+                        self.last_lu = Some(lu);
+                        self.last_used = usize::MAX;
+                    }
+                }
+            }
+            for (d, f) in self.dx.iter_mut().zip(&self.f) {
+                *d = -f;
+            }
+            let mut dx = std::mem::take(&mut self.dx);
+            self.last_factorization().expect("factored above").solve(&mut dx);
+            self.dx = dx;
+            self.work.newton_iterations += 1;
+            let lambda = eq.damping(x, &self.dx);
+            update_ok = lambda == 1.0;
+            for (i, (xi, di)) in x.iter_mut().zip(&self.dx).enumerate() {
+                let step = lambda * di;
+                let atol = match eq.unknown_kind(i) {
+                    UnknownKind::Voltage => tol.atol_v,
+                    UnknownKind::Current => tol.atol_i,
+                };
+                if step.abs() > tol.rtol * xi.abs().max((*xi + step).abs()) + atol {
+                    update_ok = false;
+                }
+                *xi += step;
+            }
+            if x.iter().any(|v| !v.is_finite()) {
+                return Err(NewtonFailure::NotFinite);
+            }
+            if key.is_some() {
+                // One exact step solves a linear problem.
+                return Ok(());
+            }
+        }
+        let (worst_row, residual) = self.worst_residual(eq, tol);
+        Err(NewtonFailure::NoConvergence { worst_row, residual })
+    }
+
+    fn residual_ok<E: Equations>(&self, eq: &E, tol: &NewtonTolerances) -> bool {
+        self.f.iter().zip(&self.scale).enumerate().all(|(r, (f, s))| {
+            let atol = match eq.row_kind(r) {
+                UnknownKind::Voltage => tol.atol_v,
+                UnknownKind::Current => tol.atol_i,
+            };
+            f.abs() <= tol.rtol * s + atol
+        })
+    }
+
+    fn worst_residual<E: Equations>(&self, eq: &E, tol: &NewtonTolerances) -> (usize, f64) {
+        let mut worst = (0, 0.0);
+        let mut worst_ratio = -1.0;
+        for (r, (f, s)) in self.f.iter().zip(&self.scale).enumerate() {
+            let atol = match eq.row_kind(r) {
+                UnknownKind::Voltage => tol.atol_v,
+                UnknownKind::Current => tol.atol_i,
+            };
+            let ratio = f.abs() / (tol.rtol * s + atol);
+            if ratio > worst_ratio {
+                worst_ratio = ratio;
+                worst = (r, *f);
+            }
+        }
+        worst
+    }
+
+    /// Forgets the cached factorization (for example when the problem changes).
+    pub fn forget(&mut self) {
+        self.cache.clear();
+        self.last_lu = None;
+        self.last_used = usize::MAX;
+    }
+}
+
+/// One implicit stage of any method: alpha q(x) + i(x, t) - b(t) - r = 0, optionally with a shunt
+/// conductance from every node to ground and the sources scaled (for operating-point homotopies).
+pub struct Stage<'a> {
+    pub sys: &'a System,
+    pub alpha: f64,
+    pub r: &'a [f64],
+    pub t: f64,
+    pub source_factor: f64,
+    pub shunt: f64,
+}
+
+impl Equations for Stage<'_> {
+    fn size(&self) -> usize {
+        self.sys.size()
+    }
+
+    fn evaluate(&self, x: &[f64], f: &mut [f64], scale: &mut [f64], jac: Option<&mut Matrix>) {
+        let n = self.size();
+        let mut q = vec![0.0; n];
+        let mut b = vec![0.0; n];
+        let mut jac = jac;
+        if let Some(j) = jac.as_deref_mut() {
+            j.set_combination(self.alpha, &self.sys.c, &self.sys.g);
+            self.sys.add_charge_jacobian(x, self.alpha, j);
+            if self.shunt > 0.0 {
+                for r in 0..self.sys.node_count {
+                    j.add(r, r, self.shunt);
+                }
+            }
+        }
+        self.sys.current_into(x, self.t, f, jac);
+        self.sys.sources_into(self.t, self.source_factor, &mut b);
+        if self.alpha != 0.0 {
+            self.sys.charge_into(x, &mut q);
+        }
+        for r in 0..n {
+            let aq = self.alpha * q[r];
+            let i = f[r] + if r < self.sys.node_count { self.shunt * x[r] } else { 0.0 };
+            f[r] = aq + i - b[r] - self.r[r];
+            scale[r] = aq.abs().max(i.abs()).max(b[r].abs()).max(self.r[r].abs());
+        }
+    }
+
+    fn damping(&self, x: &[f64], dx: &[f64]) -> f64 {
+        self.sys.junction_damping(x, dx)
+    }
+
+    fn jacobian_key(&self) -> Option<u64> {
+        (self.sys.linear && self.shunt == 0.0).then(|| self.alpha.to_bits())
+    }
+
+    fn unknown_kind(&self, i: usize) -> UnknownKind {
+        self.sys.unknowns[i].kind
+    }
+
+    fn row_kind(&self, r: usize) -> UnknownKind {
+        self.sys.row_kinds[r]
+    }
+}

@@ -1,0 +1,13 @@
+//! ringtrue: reruns a circuit under every integration method and tolerance setting, measures each run
+//! against an exact or independently converged reference, and says which settings to trust.
+//!
+//! The data flow is `circuit` (parse and check) -> `equations` (MNA assembly) -> `integrate` (methods,
+//! step control, breakpoints, Newton). Numerical modules never print and never touch files; the binary
+//! adds context to their typed errors once.
+
+pub mod circuit;
+pub mod equations;
+pub mod integrate;
+pub mod output;
+pub mod settings;
+pub mod units;
