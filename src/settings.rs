@@ -186,7 +186,12 @@ impl fmt::Display for SettingError {
 
 impl std::error::Error for SettingError {}
 
-fn check(setting: &'static str, value: f64, ok: bool, valid: &'static str) -> Result<(), SettingError> {
+fn check(
+    setting: &'static str,
+    value: f64,
+    ok: bool,
+    valid: &'static str,
+) -> Result<(), SettingError> {
     if ok && value.is_finite() {
         Ok(())
     } else {
@@ -223,9 +228,24 @@ impl Default for Tolerances {
 
 impl Tolerances {
     pub fn validate(&self) -> Result<(), SettingError> {
-        check("rtol", self.rtol, self.rtol > 0.0 && self.rtol < 1.0, "greater than 0 and less than 1 (for example 1e-3)")?;
-        check("atol_v", self.atol_v, self.atol_v > 0.0, "a positive voltage (for example 1e-6)")?;
-        check("atol_i", self.atol_i, self.atol_i > 0.0, "a positive current (for example 1e-9)")?;
+        check(
+            "rtol",
+            self.rtol,
+            self.rtol > 0.0 && self.rtol < 1.0,
+            "greater than 0 and less than 1 (for example 1e-3)",
+        )?;
+        check(
+            "atol_v",
+            self.atol_v,
+            self.atol_v > 0.0,
+            "a positive voltage (for example 1e-6)",
+        )?;
+        check(
+            "atol_i",
+            self.atol_i,
+            self.atol_i > 0.0,
+            "a positive current (for example 1e-9)",
+        )?;
         check(
             "lte_factor",
             self.lte_factor,
@@ -278,14 +298,24 @@ impl StepControl {
         if let Some(h) = self.fixed_step {
             check("fixed_step", h, h > 0.0, "a positive time (for example 1n)")?;
         }
-        check("growth_limit", self.growth_limit, self.growth_limit > 1.0, "greater than 1")?;
+        check(
+            "growth_limit",
+            self.growth_limit,
+            self.growth_limit > 1.0,
+            "greater than 1",
+        )?;
         check(
             "shrink_limit",
             self.shrink_limit,
             self.shrink_limit > 0.0 && self.shrink_limit < 1.0,
             "between 0 and 1",
         )?;
-        check("safety", self.safety, self.safety > 0.0 && self.safety <= 1.0, "in (0, 1]")?;
+        check(
+            "safety",
+            self.safety,
+            self.safety > 0.0 && self.safety <= 1.0,
+            "in (0, 1]",
+        )?;
         check(
             "min_step_fraction",
             self.min_step_fraction,

@@ -152,7 +152,7 @@ pub fn parse_value(text: &str, quantity: Quantity) -> Result<f64, ValueError> {
         .map_err(|_| err("the number part is not a valid decimal".into()))?;
     let mut rest = s[n..].trim_start();
     let units = quantity.units();
-    let unit_matches = |r: &str| units.iter().any(|u| *u == r);
+    let unit_matches = |r: &str| units.contains(&r);
     if !rest.is_empty() && !unit_matches(rest) {
         let c = rest.chars().next().unwrap_or(' ');
         if let Some(&(_, exp)) = PREFIXES.iter().find(|(p, _)| *p == c) {

@@ -80,16 +80,25 @@ pub(super) fn build(raw: RawCircuit, text: &str, file: &str) -> Result<Circuit, 
         cx.push(
             find_line(text, "name:"),
             None,
-            format!("the circuit name '{}' is not usable in file names", raw.name),
+            format!(
+                "the circuit name '{}' is not usable in file names",
+                raw.name
+            ),
             "use lower-case letters, digits, '-' and '_' only, e.g. rc-step",
         );
     }
-    let ground = raw.ground.clone().unwrap_or_else(|| GROUND_DEFAULT.to_string());
+    let ground = raw
+        .ground
+        .clone()
+        .unwrap_or_else(|| GROUND_DEFAULT.to_string());
 
     let mut names = HashSet::new();
+    let mut seen: std::collections::HashMap<&str, usize> = std::collections::HashMap::new();
     let mut elements = Vec::with_capacity(raw.elements.len());
     for re in &raw.elements {
-        let line = yaml::element_line(text, &re.name);
+        let nth = seen.entry(re.name.as_str()).or_insert(0);
+        let line = yaml::element_line_nth(text, &re.name, *nth);
+        *nth += 1;
         let subject = Some(format!("element {}", re.name));
         if re.name.is_empty() || re.name.contains('.') || re.name.contains(char::is_whitespace) {
             cx.push(
@@ -225,7 +234,11 @@ pub(super) fn build(raw: RawCircuit, text: &str, file: &str) -> Result<Circuit, 
         }
         Some(RawReference::ClosedForm(c)) => ReferenceSpec::ClosedForm {
             formula: c.closed_form.clone(),
-            roles: c.roles.iter().map(|(k, v)| (k.clone(), v.clone())).collect(),
+            roles: c
+                .roles
+                .iter()
+                .map(|(k, v)| (k.clone(), v.clone()))
+                .collect(),
         },
     };
     if elements.is_empty() && cx.problems.is_empty() {
@@ -267,10 +280,21 @@ fn build_run(cx: &mut Ctx, raw: &RawCircuit) -> RunSpec {
     let line = find_line(cx.text, "run:");
     let subject = Some("run".to_string());
     let stop = cx
-        .value(&Some(r.stop.clone()), "stop", Quantity::Time, line, &subject)
+        .value(
+            &Some(r.stop.clone()),
+            "stop",
+            Quantity::Time,
+            line,
+            &subject,
+        )
         .unwrap_or(1.0);
-    if !(stop > 0.0) {
-        cx.push(line, subject.clone(), format!("stop = {stop} must be positive"), "give the end time of the run, e.g. stop: 10u");
+    if stop.is_nan() || stop <= 0.0 {
+        cx.push(
+            line,
+            subject.clone(),
+            format!("stop = {stop} must be positive"),
+            "give the end time of the run, e.g. stop: 10u",
+        );
     }
     let mut o = Overrides::default();
     if let Some(s) = &r.start {
@@ -340,7 +364,12 @@ fn build_watch(
         return out;
     };
     if list.is_empty() {
-        cx.push(line, Some("watch".into()), "the watch list is empty".into(), "list node names or NAME.current, or remove `watch` to watch every node");
+        cx.push(
+            line,
+            Some("watch".into()),
+            "the watch list is empty".into(),
+            "list node names or NAME.current, or remove `watch` to watch every node",
+        );
     }
     let mut out = Vec::new();
     for w in list {
@@ -350,19 +379,34 @@ fn build_watch(
                     kind: ElementKind::Coupling { .. },
                     ..
                 }) => {
-                    cx.push(line, Some(format!("watch {w}")), format!("'{el}' is a coupling, which carries no current"), "watch the current of one of its inductors");
+                    cx.push(
+                        line,
+                        Some(format!("watch {w}")),
+                        format!("'{el}' is a coupling, which carries no current"),
+                        "watch the current of one of its inductors",
+                    );
                     continue;
                 }
                 Some(_) => Probe::Current(el.to_string()),
                 None => {
-                    cx.push(line, Some(format!("watch {w}")), format!("there is no element '{el}'"), "watch NAME.current of an element of this circuit");
+                    cx.push(
+                        line,
+                        Some(format!("watch {w}")),
+                        format!("there is no element '{el}'"),
+                        "watch NAME.current of an element of this circuit",
+                    );
                     continue;
                 }
             }
         } else if nodes.contains(w.as_str()) && w != ground {
             Probe::Node(w.clone())
         } else if w == ground {
-            cx.push(line, Some(format!("watch {w}")), "ground is 0 V by definition".into(), "watch another node");
+            cx.push(
+                line,
+                Some(format!("watch {w}")),
+                "ground is 0 V by definition".into(),
+                "watch another node",
+            );
             continue;
         } else {
             let hint = if elements.iter().any(|e| &e.name == w) {
@@ -370,11 +414,21 @@ fn build_watch(
             } else {
                 "watch a node that an element connects to, or NAME.current".to_string()
             };
-            cx.push(line, Some(format!("watch {w}")), format!("'{w}' is not a node of this circuit"), &hint);
+            cx.push(
+                line,
+                Some(format!("watch {w}")),
+                format!("'{w}' is not a node of this circuit"),
+                &hint,
+            );
             continue;
         };
         if out.contains(&probe) {
-            cx.push(line, Some(format!("watch {w}")), "is listed twice".into(), "list each signal once");
+            cx.push(
+                line,
+                Some(format!("watch {w}")),
+                "is listed twice".into(),
+                "list each signal once",
+            );
             continue;
         }
         out.push(probe);
@@ -452,7 +506,12 @@ fn build_element(
     ground: &str,
 ) -> Option<ElementKind> {
     let Some(allowed) = allowed_fields(&re.kind) else {
-        cx.push(line, subject.clone(), format!("unknown kind '{}'", re.kind), &format!("use one of: {KINDS}"));
+        cx.push(
+            line,
+            subject.clone(),
+            format!("unknown kind '{}'", re.kind),
+            &format!("use one of: {KINDS}"),
+        );
         return None;
     };
     let mut ok = true;
@@ -473,26 +532,51 @@ fn build_element(
         match &re.nodes {
             Some(n) if n.len() == 2 && !n[0].is_empty() && !n[1].is_empty() => {
                 if n[0] == n[1] {
-                    cx.push(line, subject.clone(), format!("both terminals are on node '{}'", n[0]), "connect the element between two different nodes");
+                    cx.push(
+                        line,
+                        subject.clone(),
+                        format!("both terminals are on node '{}'", n[0]),
+                        "connect the element between two different nodes",
+                    );
                     ok = false;
                 }
                 Some([n[0].clone(), n[1].clone()])
             }
             Some(n) => {
-                cx.push(line, subject.clone(), format!("has {} nodes", n.len()), "give exactly two nodes, e.g. nodes: [in, gnd]");
+                cx.push(
+                    line,
+                    subject.clone(),
+                    format!("has {} nodes", n.len()),
+                    "give exactly two nodes, e.g. nodes: [in, gnd]",
+                );
                 return None;
             }
             None => {
-                cx.push(line, subject.clone(), "has no `nodes`".into(), "give two nodes, e.g. nodes: [in, gnd]");
+                cx.push(
+                    line,
+                    subject.clone(),
+                    "has no `nodes`".into(),
+                    "give two nodes, e.g. nodes: [in, gnd]",
+                );
                 return None;
             }
         }
     };
     let _ = ground;
-    let positive = |cx: &mut Ctx, v: &Option<RawValue>, field: &str, q: Quantity, required: bool| -> Option<f64> {
+    let positive = |cx: &mut Ctx,
+                    v: &Option<RawValue>,
+                    field: &str,
+                    q: Quantity,
+                    required: bool|
+     -> Option<f64> {
         if v.is_none() {
             if required {
-                cx.push(line, subject.clone(), format!("has no `{field}`"), &format!("give {field} as {}", q.describe()));
+                cx.push(
+                    line,
+                    subject.clone(),
+                    format!("has no `{field}`"),
+                    &format!("give {field} as {}", q.describe()),
+                );
             }
             return None;
         }
@@ -500,7 +584,12 @@ fn build_element(
         if x > 0.0 {
             Some(x)
         } else {
-            cx.push(line, subject.clone(), format!("{field} = {x} must be positive"), &format!("give {field} as {} greater than zero", q.describe()));
+            cx.push(
+                line,
+                subject.clone(),
+                format!("{field} = {x} must be positive"),
+                &format!("give {field} as {} greater than zero", q.describe()),
+            );
             None
         }
     };
@@ -512,29 +601,56 @@ fn build_element(
         "capacitor" => ElementKind::Capacitor {
             nodes: nodes?,
             capacitance: positive(cx, &re.value, "value", Quantity::Capacitance, true)?,
-            initial_voltage: cx.value(&re.initial_voltage, "initial_voltage", Quantity::Voltage, line, subject),
+            initial_voltage: cx.value(
+                &re.initial_voltage,
+                "initial_voltage",
+                Quantity::Voltage,
+                line,
+                subject,
+            ),
         },
         "inductor" => ElementKind::Inductor {
             nodes: nodes?,
             inductance: positive(cx, &re.value, "value", Quantity::Inductance, true)?,
-            initial_current: cx.value(&re.initial_current, "initial_current", Quantity::Current, line, subject),
+            initial_current: cx.value(
+                &re.initial_current,
+                "initial_current",
+                Quantity::Current,
+                line,
+                subject,
+            ),
         },
         "coupling" => {
             let inductors = match &re.inductors {
                 Some(l) if l.len() == 2 => [l[0].clone(), l[1].clone()],
                 _ => {
-                    cx.push(line, subject.clone(), "needs `inductors: [LA, LB]`".into(), "name the two coupled inductors");
+                    cx.push(
+                        line,
+                        subject.clone(),
+                        "needs `inductors: [LA, LB]`".into(),
+                        "name the two coupled inductors",
+                    );
                     return None;
                 }
             };
             let Some(k) = cx.value(&re.k, "k", Quantity::Plain, line, subject) else {
                 if re.k.is_none() {
-                    cx.push(line, subject.clone(), "has no coupling coefficient `k`".into(), "give k with 0 < |k| < 1");
+                    cx.push(
+                        line,
+                        subject.clone(),
+                        "has no coupling coefficient `k`".into(),
+                        "give k with 0 < |k| < 1",
+                    );
                 }
                 return None;
             };
             if !(k.abs() > 0.0 && k.abs() < 1.0) {
-                cx.push(line, subject.clone(), format!("k = {k} is out of range"), "give k with 0 < |k| < 1 (|k| = 1 makes the inductance matrix singular)");
+                cx.push(
+                    line,
+                    subject.clone(),
+                    format!("k = {k} is out of range"),
+                    "give k with 0 < |k| < 1 (|k| = 1 makes the inductance matrix singular)",
+                );
                 return None;
             }
             ElementKind::Coupling { inductors, k }
@@ -542,52 +658,109 @@ fn build_element(
         "voltage_source" | "current_source" => {
             let wave = match (&re.value, &re.waveform) {
                 (Some(_), Some(_)) => {
-                    cx.push(line, subject.clone(), "has both `value` and `waveform`".into(), "keep one: value for a constant, waveform otherwise");
+                    cx.push(
+                        line,
+                        subject.clone(),
+                        "has both `value` and `waveform`".into(),
+                        "keep one: value for a constant, waveform otherwise",
+                    );
                     return None;
                 }
-                (Some(v), None) => Waveform::Constant(cx.value(&Some(v.clone()), "value", Quantity::Level, line, subject)?),
+                (Some(v), None) => Waveform::Constant(cx.value(
+                    &Some(v.clone()),
+                    "value",
+                    Quantity::Level,
+                    line,
+                    subject,
+                )?),
                 (None, Some(w)) => build_waveform(cx, w, line, subject)?,
                 (None, None) => {
-                    cx.push(line, subject.clone(), "has neither `value` nor `waveform`".into(), "give value: 1 for a constant or a waveform map");
+                    cx.push(
+                        line,
+                        subject.clone(),
+                        "has neither `value` nor `waveform`".into(),
+                        "give value: 1 for a constant or a waveform map",
+                    );
                     return None;
                 }
             };
             if re.kind == "voltage_source" {
-                ElementKind::VoltageSource { nodes: nodes?, waveform: wave }
+                ElementKind::VoltageSource {
+                    nodes: nodes?,
+                    waveform: wave,
+                }
             } else {
-                ElementKind::CurrentSource { nodes: nodes?, waveform: wave }
+                ElementKind::CurrentSource {
+                    nodes: nodes?,
+                    waveform: wave,
+                }
             }
         }
         "diode" => {
             let saturation_current = if re.saturation_current.is_some() {
-                positive(cx, &re.saturation_current, "saturation_current", Quantity::Current, true)?
+                positive(
+                    cx,
+                    &re.saturation_current,
+                    "saturation_current",
+                    Quantity::Current,
+                    true,
+                )?
             } else {
                 1e-14
             };
             let emission_coefficient = if re.emission_coefficient.is_some() {
-                positive(cx, &re.emission_coefficient, "emission_coefficient", Quantity::Plain, true)?
+                positive(
+                    cx,
+                    &re.emission_coefficient,
+                    "emission_coefficient",
+                    Quantity::Plain,
+                    true,
+                )?
             } else {
                 1.0
             };
             let temperature = if re.temperature.is_some() {
-                positive(cx, &re.temperature, "temperature", Quantity::Temperature, true)?
+                positive(
+                    cx,
+                    &re.temperature,
+                    "temperature",
+                    Quantity::Temperature,
+                    true,
+                )?
             } else {
                 300.0
             };
-            let series_resistance = positive(cx, &re.series_resistance, "series_resistance", Quantity::Resistance, false);
+            let series_resistance = positive(
+                cx,
+                &re.series_resistance,
+                "series_resistance",
+                Quantity::Resistance,
+                false,
+            );
             if re.series_resistance.is_some() && series_resistance.is_none() {
                 return None;
             }
-            let nonneg = |cx: &mut Ctx, v: &Option<RawValue>, field: &str, q: Quantity| -> Option<f64> {
-                let x = cx.value(v, field, q, line, subject).unwrap_or(0.0);
-                if x < 0.0 {
-                    cx.push(line, subject.clone(), format!("{field} = {x} is negative"), "give zero or a positive value");
-                    None
-                } else {
-                    Some(x)
-                }
-            };
-            let junction_capacitance = nonneg(cx, &re.junction_capacitance, "junction_capacitance", Quantity::Capacitance)?;
+            let nonneg =
+                |cx: &mut Ctx, v: &Option<RawValue>, field: &str, q: Quantity| -> Option<f64> {
+                    let x = cx.value(v, field, q, line, subject).unwrap_or(0.0);
+                    if x < 0.0 {
+                        cx.push(
+                            line,
+                            subject.clone(),
+                            format!("{field} = {x} is negative"),
+                            "give zero or a positive value",
+                        );
+                        None
+                    } else {
+                        Some(x)
+                    }
+                };
+            let junction_capacitance = nonneg(
+                cx,
+                &re.junction_capacitance,
+                "junction_capacitance",
+                Quantity::Capacitance,
+            )?;
             let transit_time = nonneg(cx, &re.transit_time, "transit_time", Quantity::Time)?;
             ElementKind::Diode {
                 nodes: nodes?,
@@ -611,7 +784,12 @@ fn build_element(
                 Some(g) => g,
                 None => {
                     if re.gain.is_none() {
-                        cx.push(line, subject.clone(), "has no `gain`".into(), &format!("give gain as {}", gq.describe()));
+                        cx.push(
+                            line,
+                            subject.clone(),
+                            "has no `gain`".into(),
+                            &format!("give gain as {}", gq.describe()),
+                        );
                     }
                     return None;
                 }
@@ -622,57 +800,124 @@ fn build_element(
                 (Some(RawControl::Nodes(c)), true) if c.len() == 2 => {
                     let control = [c[0].clone(), c[1].clone()];
                     if re.kind == "vcvs" {
-                        ElementKind::Vcvs { nodes, control, gain }
+                        ElementKind::Vcvs {
+                            nodes,
+                            control,
+                            gain,
+                        }
                     } else {
-                        ElementKind::Vccs { nodes, control, gain }
+                        ElementKind::Vccs {
+                            nodes,
+                            control,
+                            gain,
+                        }
                     }
                 }
                 (Some(RawControl::Element(c)), false) => {
                     if re.kind == "cccs" {
-                        ElementKind::Cccs { nodes, control: c.clone(), gain }
+                        ElementKind::Cccs {
+                            nodes,
+                            control: c.clone(),
+                            gain,
+                        }
                     } else {
-                        ElementKind::Ccvs { nodes, control: c.clone(), gain }
+                        ElementKind::Ccvs {
+                            nodes,
+                            control: c.clone(),
+                            gain,
+                        }
                     }
                 }
                 (_, true) => {
-                    cx.push(line, subject.clone(), "needs `control: [NODE_PLUS, NODE_MINUS]`".into(), "name the two nodes whose voltage difference controls it");
+                    cx.push(
+                        line,
+                        subject.clone(),
+                        "needs `control: [NODE_PLUS, NODE_MINUS]`".into(),
+                        "name the two nodes whose voltage difference controls it",
+                    );
                     return None;
                 }
                 (_, false) => {
-                    cx.push(line, subject.clone(), "needs `control: ELEMENT`".into(), "name the element whose current controls it");
+                    cx.push(
+                        line,
+                        subject.clone(),
+                        "needs `control: ELEMENT`".into(),
+                        "name the element whose current controls it",
+                    );
                     return None;
                 }
             }
         }
         "switch" => {
-            let on = positive(cx, &re.on_resistance, "on_resistance", Quantity::Resistance, true);
-            let off = positive(cx, &re.off_resistance, "off_resistance", Quantity::Resistance, true);
+            let on = positive(
+                cx,
+                &re.on_resistance,
+                "on_resistance",
+                Quantity::Resistance,
+                true,
+            );
+            let off = positive(
+                cx,
+                &re.off_resistance,
+                "off_resistance",
+                Quantity::Resistance,
+                true,
+            );
             let transition = positive(cx, &re.transition, "transition", Quantity::Time, true);
             let initially_on = match re.initially.as_deref() {
                 None | Some("off") => false,
                 Some("on") => true,
                 Some(other) => {
-                    cx.push(line, subject.clone(), format!("initially = '{other}' is not a switch state"), "write initially: on or initially: off");
+                    cx.push(
+                        line,
+                        subject.clone(),
+                        format!("initially = '{other}' is not a switch state"),
+                        "write initially: on or initially: off",
+                    );
                     return None;
                 }
             };
             let mut toggle_at = Vec::new();
             for v in re.toggle_at.iter().flatten() {
-                toggle_at.push(cx.value(&Some(v.clone()), "toggle_at", Quantity::Time, line, subject)?);
+                toggle_at.push(cx.value(
+                    &Some(v.clone()),
+                    "toggle_at",
+                    Quantity::Time,
+                    line,
+                    subject,
+                )?);
             }
             let (on, off, transition) = (on?, off?, transition?);
             if on >= off {
-                cx.push(line, subject.clone(), format!("on_resistance ({on}) is not below off_resistance ({off})"), "make the on resistance the smaller one");
+                cx.push(
+                    line,
+                    subject.clone(),
+                    format!("on_resistance ({on}) is not below off_resistance ({off})"),
+                    "make the on resistance the smaller one",
+                );
                 return None;
             }
             for w in toggle_at.windows(2) {
                 if w[1] < w[0] + transition {
-                    cx.push(line, subject.clone(), format!("toggle at {} starts before the transition begun at {} ends", w[1], w[0]), "list toggle times in increasing order, at least `transition` apart");
+                    cx.push(
+                        line,
+                        subject.clone(),
+                        format!(
+                            "toggle at {} starts before the transition begun at {} ends",
+                            w[1], w[0]
+                        ),
+                        "list toggle times in increasing order, at least `transition` apart",
+                    );
                     return None;
                 }
             }
             if toggle_at.first().is_some_and(|&t| t < 0.0) {
-                cx.push(line, subject.clone(), "a toggle time is negative".into(), "give toggle times at or after 0");
+                cx.push(
+                    line,
+                    subject.clone(),
+                    "a toggle time is negative".into(),
+                    "give toggle times at or after 0",
+                );
                 return None;
             }
             ElementKind::Switch {
@@ -691,21 +936,42 @@ fn build_element(
     ok.then_some(kind)
 }
 
-fn build_waveform(cx: &mut Ctx, w: &RawWaveform, line: Option<usize>, subject: &Option<String>) -> Option<Waveform> {
+fn build_waveform(
+    cx: &mut Ctx,
+    w: &RawWaveform,
+    line: Option<usize>,
+    subject: &Option<String>,
+) -> Option<Waveform> {
     let lv = Quantity::Level;
     let tq = Quantity::Time;
     let nonneg_time = |cx: &mut Ctx, v: &Option<RawValue>, field: &str| -> Option<f64> {
         let x = cx.value(v, field, tq, line, subject).unwrap_or(0.0);
         if x < 0.0 {
-            cx.push(line, subject.clone(), format!("{field} = {x} is negative"), &format!("give {field} as zero or a positive time"));
+            cx.push(
+                line,
+                subject.clone(),
+                format!("{field} = {x} is negative"),
+                &format!("give {field} as zero or a positive time"),
+            );
             None
         } else {
             Some(x)
         }
     };
-    let given = [w.constant.is_some(), w.step.is_some(), w.pulse.is_some(), w.sine.is_some(), w.piecewise_linear.is_some()];
+    let given = [
+        w.constant.is_some(),
+        w.step.is_some(),
+        w.pulse.is_some(),
+        w.sine.is_some(),
+        w.piecewise_linear.is_some(),
+    ];
     if given.iter().filter(|&&g| g).count() != 1 {
-        cx.push(line, subject.clone(), "the waveform map must have exactly one key".into(), "use one of constant, step, pulse, sine, piecewise_linear");
+        cx.push(
+            line,
+            subject.clone(),
+            "the waveform map must have exactly one key".into(),
+            "use one of constant, step, pulse, sine, piecewise_linear",
+        );
         return None;
     }
     Some(if let Some(v) = &w.constant {
@@ -730,32 +996,62 @@ fn build_waveform(cx: &mut Ctx, w: &RawWaveform, line: Option<usize>, subject: &
                 None => None,
                 Some(v) => {
                     let per = cx.value(&Some(v.clone()), "period", tq, line, subject)?;
-                    if !(per > 0.0) || per < rise + width + fall {
+                    if per.is_nan() || per <= 0.0 || per < rise + width + fall {
                         cx.push(line, subject.clone(), format!("period = {per} is shorter than rise + width + fall = {}", rise + width + fall), "make the period at least rise + width + fall, or remove it for a single pulse");
                         return None;
                     }
                     Some(per)
                 }
             };
-            Waveform::Pulse { low, high, delay, rise, fall, width, period }
+            Waveform::Pulse {
+                low,
+                high,
+                delay,
+                rise,
+                fall,
+                width,
+                period,
+            }
         }
     } else if let Some(s) = &w.sine {
         {
-            let frequency = cx.value(&Some(s.frequency.clone()), "frequency", Quantity::Frequency, line, subject)?;
-            if !(frequency > 0.0) {
-                cx.push(line, subject.clone(), format!("frequency = {frequency} must be positive"), "give the frequency in Hz, e.g. 1MHz");
+            let frequency = cx.value(
+                &Some(s.frequency.clone()),
+                "frequency",
+                Quantity::Frequency,
+                line,
+                subject,
+            )?;
+            if frequency.is_nan() || frequency <= 0.0 {
+                cx.push(
+                    line,
+                    subject.clone(),
+                    format!("frequency = {frequency} must be positive"),
+                    "give the frequency in Hz, e.g. 1MHz",
+                );
                 return None;
             }
-            let decay = cx.value(&s.decay, "decay", Quantity::Frequency, line, subject).unwrap_or(0.0);
+            let decay = cx
+                .value(&s.decay, "decay", Quantity::Frequency, line, subject)
+                .unwrap_or(0.0);
             if decay < 0.0 {
-                cx.push(line, subject.clone(), format!("decay = {decay} is negative: the sine would grow without bound"), "give a decay rate of zero or more (1/s)");
+                cx.push(
+                    line,
+                    subject.clone(),
+                    format!("decay = {decay} is negative: the sine would grow without bound"),
+                    "give a decay rate of zero or more (1/s)",
+                );
                 return None;
             }
             Waveform::Sine {
-                offset: cx.value(&s.offset, "offset", lv, line, subject).unwrap_or(0.0),
+                offset: cx
+                    .value(&s.offset, "offset", lv, line, subject)
+                    .unwrap_or(0.0),
                 amplitude: cx.value(&Some(s.amplitude.clone()), "amplitude", lv, line, subject)?,
                 frequency,
-                phase_deg: cx.value(&s.phase_deg, "phase_deg", Quantity::Plain, line, subject).unwrap_or(0.0),
+                phase_deg: cx
+                    .value(&s.phase_deg, "phase_deg", Quantity::Plain, line, subject)
+                    .unwrap_or(0.0),
                 delay: nonneg_time(cx, &s.delay, "delay")?,
                 decay,
             }
@@ -764,13 +1060,24 @@ fn build_waveform(cx: &mut Ctx, w: &RawWaveform, line: Option<usize>, subject: &
         let pts = w.piecewise_linear.as_ref().expect("exactly one key is set");
         {
             if pts.is_empty() {
-                cx.push(line, subject.clone(), "the piecewise_linear list is empty".into(), "give at least one [time, value] pair");
+                cx.push(
+                    line,
+                    subject.clone(),
+                    "the piecewise_linear list is empty".into(),
+                    "give at least one [time, value] pair",
+                );
                 return None;
             }
             let mut out = Vec::with_capacity(pts.len());
             for (i, (t, v)) in pts.iter().enumerate() {
                 let t = cx.value(&Some(t.clone()), "piecewise_linear time", tq, line, subject)?;
-                let v = cx.value(&Some(v.clone()), "piecewise_linear value", lv, line, subject)?;
+                let v = cx.value(
+                    &Some(v.clone()),
+                    "piecewise_linear value",
+                    lv,
+                    line,
+                    subject,
+                )?;
                 if let Some(&(prev, _)) = out.last() {
                     if t <= prev {
                         cx.push(line, subject.clone(), format!("piecewise_linear time {t} at point {} is not after the previous time {prev}", i + 1), "make the times strictly increasing");
@@ -778,7 +1085,12 @@ fn build_waveform(cx: &mut Ctx, w: &RawWaveform, line: Option<usize>, subject: &
                     }
                 }
                 if t < 0.0 {
-                    cx.push(line, subject.clone(), format!("piecewise_linear time {t} is negative"), "start the times at 0 or later");
+                    cx.push(
+                        line,
+                        subject.clone(),
+                        format!("piecewise_linear time {t} is negative"),
+                        "start the times at 0 or later",
+                    );
                     return None;
                 }
                 out.push((t, v));

@@ -113,7 +113,10 @@ pub(super) fn check(c: &Circuit) -> Result<(), CircuitError> {
                 column: None,
                 subject: Some(format!("node {n}")),
                 message: format!("has no path to ground '{}' through any element", c.ground),
-                hint: format!("connect it to {} (or rename its ground node to {})", c.ground, c.ground),
+                hint: format!(
+                    "connect it to {} (or rename its ground node to {})",
+                    c.ground, c.ground
+                ),
             });
         }
     }
@@ -135,7 +138,10 @@ pub(super) fn check(c: &Circuit) -> Result<(), CircuitError> {
             if role(&e.kind, st) != Role::FixesVoltage {
                 continue;
             }
-            let [a, b] = e.kind.terminals().expect("voltage-fixing elements have terminals");
+            let [a, b] = e
+                .kind
+                .terminals()
+                .expect("voltage-fixing elements have terminals");
             let (ia, ib) = (g.id(a), g.id(b));
             if !uf.union(ia, ib) {
                 let mut names: Vec<String> = path(&adj, ia, ib)
@@ -144,7 +150,10 @@ pub(super) fn check(c: &Circuit) -> Result<(), CircuitError> {
                     .collect();
                 names.push(e.name.clone());
                 let has_inductor = names.iter().any(|n| {
-                    matches!(c.element(n).map(|x| &x.kind), Some(ElementKind::Inductor { .. }))
+                    matches!(
+                        c.element(n).map(|x| &x.kind),
+                        Some(ElementKind::Inductor { .. })
+                    )
                 });
                 let (message, hint) = if has_inductor && label.is_some() {
                     (
@@ -192,7 +201,10 @@ pub(super) fn check(c: &Circuit) -> Result<(), CircuitError> {
             for e in &c.elements {
                 if let Some([a, b]) = e.kind.terminals() {
                     let (ra, rb) = (uf.find(g.id(a)), uf.find(g.id(b)));
-                    if role(&e.kind, st) == Role::FixesCurrent && ra != rb && (ra == uf.find(i) || rb == uf.find(i)) {
+                    if role(&e.kind, st) == Role::FixesCurrent
+                        && ra != rb
+                        && (ra == uf.find(i) || rb == uf.find(i))
+                    {
                         cut.push(e.name.clone());
                     }
                 }
@@ -266,6 +278,10 @@ fn path(adj: &[Vec<(usize, usize)>], a: usize, b: usize) -> Vec<usize> {
 fn first_line_touching(c: &Circuit, node: &str) -> Option<usize> {
     c.elements
         .iter()
-        .find(|e| e.kind.terminals().is_some_and(|t| t.iter().any(|n| n == node)))
+        .find(|e| {
+            e.kind
+                .terminals()
+                .is_some_and(|t| t.iter().any(|n| n == node))
+        })
         .and_then(|e| e.line)
 }

@@ -92,7 +92,8 @@ impl Waveform {
                     offset + amplitude * phase.sin()
                 } else {
                     let s = t - delay;
-                    offset + amplitude * (2.0 * PI * frequency * s + phase).sin() * (-decay * s).exp()
+                    offset
+                        + amplitude * (2.0 * PI * frequency * s + phase).sin() * (-decay * s).exp()
                 }
             }
             Waveform::PiecewiseLinear(ref pts) => pwl_value(pts, t),
@@ -151,7 +152,11 @@ impl Waveform {
         match *self {
             Waveform::Step { rise, from, to, .. } => rise == 0.0 && from != to,
             Waveform::Pulse {
-                rise, fall, low, high, ..
+                rise,
+                fall,
+                low,
+                high,
+                ..
             } => (rise == 0.0 || fall == 0.0) && low != high,
             _ => false,
         }
@@ -229,10 +234,7 @@ mod tests {
         assert_eq!(w.value(4.5), 1.0);
         assert_eq!(w.value(6.0), 0.0);
         assert_eq!(w.value(7.5), 1.0);
-        assert_eq!(
-            w.corners(8.0),
-            vec![1.0, 2.0, 4.0, 5.0, 7.0, 8.0]
-        );
+        assert_eq!(w.corners(8.0), vec![1.0, 2.0, 4.0, 5.0, 7.0, 8.0]);
     }
 
     #[test]

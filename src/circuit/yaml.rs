@@ -33,6 +33,12 @@ pub fn from_str<T: DeserializeOwned>(text: &str) -> Result<T, YamlError> {
 /// The 1-based line on which the element called `name` is declared (`name: NAME` inside `elements:`),
 /// found by reading the text, since the parser keeps no positions for values.
 pub fn element_line(text: &str, name: &str) -> Option<usize> {
+    element_line_nth(text, name, 0)
+}
+
+/// The line of the `nth` (0-based) declaration of an element called `name`, for duplicated names.
+pub fn element_line_nth(text: &str, name: &str, nth: usize) -> Option<usize> {
+    let mut seen = 0;
     let mut in_elements = false;
     for (i, line) in text.lines().enumerate() {
         let trimmed = line.trim_start();
@@ -40,7 +46,10 @@ pub fn element_line(text: &str, name: &str) -> Option<usize> {
             in_elements = trimmed.starts_with("elements:");
         }
         if in_elements && declares_name(line, name) {
-            return Some(i + 1);
+            if seen == nth {
+                return Some(i + 1);
+            }
+            seen += 1;
         }
     }
     None

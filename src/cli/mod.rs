@@ -10,7 +10,11 @@ use ringtrue::units::{parse_value, Quantity};
 use std::path::PathBuf;
 
 #[derive(Parser, Debug)]
-#[command(name = "ringtrue", version, about = "Measures the accuracy of transient integration settings on your circuit")]
+#[command(
+    name = "ringtrue",
+    version,
+    about = "Measures the accuracy of transient integration settings on your circuit"
+)]
 struct Cli {
     #[command(subcommand)]
     command: Command,
@@ -50,8 +54,11 @@ fn volt_value(s: &str) -> Result<f64, String> {
 fn amp_value(s: &str) -> Result<f64, String> {
     parse_value(s, Quantity::Current).map_err(|e| e.to_string())
 }
-fn named<T: std::str::FromStr<Err = ringtrue::settings::UnknownName>>(s: &str) -> Result<T, String> {
-    s.parse().map_err(|e: ringtrue::settings::UnknownName| e.to_string())
+fn named<T: std::str::FromStr<Err = ringtrue::settings::UnknownName>>(
+    s: &str,
+) -> Result<T, String> {
+    s.parse()
+        .map_err(|e: ringtrue::settings::UnknownName| e.to_string())
 }
 
 /// The settings of one cell; any given here override the circuit file's `run:` map.

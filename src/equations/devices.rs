@@ -103,8 +103,15 @@ mod tests {
             let (hi, lo) = (junction(&m, v + d), junction(&m, v - d));
             let g = (hi.current - lo.current) / (2.0 * d);
             let c = (hi.charge - lo.charge) / (2.0 * d);
-            assert!((g - p.conductance).abs() <= 1e-5 * p.conductance.abs() + 1e-18, "{v}: {g} vs {}", p.conductance);
-            assert!((c - p.capacitance).abs() <= 1e-5 * p.capacitance.abs() + 1e-20, "{v}");
+            assert!(
+                (g - p.conductance).abs() <= 1e-5 * p.conductance.abs() + 1e-18,
+                "{v}: {g} vs {}",
+                p.conductance
+            );
+            assert!(
+                (c - p.capacitance).abs() <= 1e-5 * p.capacitance.abs() + 1e-20,
+                "{v}"
+            );
         }
     }
 

@@ -75,7 +75,9 @@ impl Matrix {
 
     /// True when row `r` has any nonzero entry.
     pub fn row_is_nonzero(&self, r: usize) -> bool {
-        self.a[r * self.n..(r + 1) * self.n].iter().any(|&v| v != 0.0)
+        self.a[r * self.n..(r + 1) * self.n]
+            .iter()
+            .any(|&v| v != 0.0)
     }
 
     /// LU factorization with partial pivoting. A pivot below a few rounding errors of its column's

@@ -57,12 +57,29 @@ struct SwitchStamp {
 #[derive(Debug, Clone)]
 enum ProbeExpr {
     Unknown(usize),
-    Conductance { a: Option<usize>, b: Option<usize>, g: f64 },
-    Source { index: usize, sign: f64 },
-    Transconductance { c: [Option<usize>; 2], g: f64 },
-    CurrentGain { unknown: usize, gain: f64 },
-    Diode { index: usize },
-    Switch { index: usize },
+    Conductance {
+        a: Option<usize>,
+        b: Option<usize>,
+        g: f64,
+    },
+    Source {
+        index: usize,
+        sign: f64,
+    },
+    Transconductance {
+        c: [Option<usize>; 2],
+        g: f64,
+    },
+    CurrentGain {
+        unknown: usize,
+        gain: f64,
+    },
+    Diode {
+        index: usize,
+    },
+    Switch {
+        index: usize,
+    },
 }
 
 /// A capacitor whose voltage is held at t = 0 under `start: initial_conditions`.
@@ -385,7 +402,9 @@ impl System {
             let expr = match p {
                 Probe::Node(nm) => ProbeExpr::Unknown(node_index[nm.as_str()]),
                 Probe::Current(el) => {
-                    let e = circuit.element(el).expect("checked: watched elements exist");
+                    let e = circuit
+                        .element(el)
+                        .expect("checked: watched elements exist");
                     let [na, nb] = e.kind.terminals().expect("checked: not a coupling");
                     let (a, b) = (node(na), node(nb));
                     if let Some(&k) = branch.get(el).or_else(|| probe_branch.get(el)) {
@@ -401,10 +420,12 @@ impl System {
                                 index: source_index(circuit, el),
                                 sign: 1.0,
                             },
-                            ElementKind::Vccs { control, gain, .. } => ProbeExpr::Transconductance {
-                                c: [node(&control[0]), node(&control[1])],
-                                g: *gain,
-                            },
+                            ElementKind::Vccs { control, gain, .. } => {
+                                ProbeExpr::Transconductance {
+                                    c: [node(&control[0]), node(&control[1])],
+                                    g: *gain,
+                                }
+                            }
                             ElementKind::Cccs { control, gain, .. } => ProbeExpr::CurrentGain {
                                 unknown: branch[control],
                                 gain: *gain,
@@ -416,7 +437,10 @@ impl System {
                                     g: 1.0 / rs,
                                 },
                                 None => ProbeExpr::Diode {
-                                    index: diodes.iter().position(|d| d.name == *el).expect("diode stamped"),
+                                    index: diodes
+                                        .iter()
+                                        .position(|d| d.name == *el)
+                                        .expect("diode stamped"),
                                 },
                             },
                             ElementKind::Switch { .. } => ProbeExpr::Switch {
@@ -427,7 +451,9 @@ impl System {
                                     .position(|x| x.name == *el)
                                     .expect("switch stamped"),
                             },
-                            _ => unreachable!("elements with branch currents or probes are handled above"),
+                            _ => unreachable!(
+                                "elements with branch currents or probes are handled above"
+                            ),
                         }
                     }
                 }
@@ -587,10 +613,13 @@ impl System {
 
     /// The index of the unknown a probe reads directly, when it reads one.
     pub fn probe_unknown(&self, label: &str) -> Option<usize> {
-        self.probes.iter().find(|(l, _)| l == label).and_then(|(_, p)| match p {
-            ProbeExpr::Unknown(i) => Some(*i),
-            _ => None,
-        })
+        self.probes
+            .iter()
+            .find(|(l, _)| l == label)
+            .and_then(|(_, p)| match p {
+                ProbeExpr::Unknown(i) => Some(*i),
+                _ => None,
+            })
     }
 
     /// The name a person would use for unknown `i` (an internal node is named by its element).
@@ -601,7 +630,10 @@ impl System {
                 Some((el, what)) => format!("the {what} node of element {el}"),
                 None => format!("node {}", u.name),
             },
-            UnknownKind::Current => format!("the current of element {}", u.name.trim_end_matches(".current")),
+            UnknownKind::Current => format!(
+                "the current of element {}",
+                u.name.trim_end_matches(".current")
+            ),
         }
     }
 }
@@ -610,7 +642,12 @@ fn source_index(circuit: &Circuit, name: &str) -> usize {
     circuit
         .elements
         .iter()
-        .filter(|e| matches!(e.kind, ElementKind::VoltageSource { .. } | ElementKind::CurrentSource { .. }))
+        .filter(|e| {
+            matches!(
+                e.kind,
+                ElementKind::VoltageSource { .. } | ElementKind::CurrentSource { .. }
+            )
+        })
         .position(|e| e.name == name)
         .expect("source stamped")
 }
@@ -638,7 +675,10 @@ fn mark_loop_capacitors(
         | ElementKind::Vcvs { nodes, .. }
         | ElementKind::Ccvs { nodes, .. } = &e.kind
         {
-            let (ra, rb) = (find(&mut parent, id(&nodes[0])), find(&mut parent, id(&nodes[1])));
+            let (ra, rb) = (
+                find(&mut parent, id(&nodes[0])),
+                find(&mut parent, id(&nodes[1])),
+            );
             parent[ra] = rb;
         }
     }
@@ -647,7 +687,10 @@ fn mark_loop_capacitors(
             .element(&h.element)
             .and_then(|e| e.kind.terminals())
             .expect("capacitors have terminals");
-        let (ra, rb) = (find(&mut parent, id(&nodes[0])), find(&mut parent, id(&nodes[1])));
+        let (ra, rb) = (
+            find(&mut parent, id(&nodes[0])),
+            find(&mut parent, id(&nodes[1])),
+        );
         if ra == rb {
             h.held = false;
         } else {

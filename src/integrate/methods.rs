@@ -74,7 +74,10 @@ pub const METHOD_TABLE: [MethodInfo; 4] = [
 ];
 
 pub fn info(name: MethodName) -> &'static MethodInfo {
-    METHOD_TABLE.iter().find(|m| m.name == name).expect("every method is in the table")
+    METHOD_TABLE
+        .iter()
+        .find(|m| m.name == name)
+        .expect("every method is in the table")
 }
 
 /// One accepted point of a method's own history.
@@ -99,7 +102,13 @@ pub trait StageSolver {
     fn current(&self) -> &Point;
     fn previous(&self) -> Option<&Point>;
     /// Solves alpha q(x) + i(x, t) = b(t) + r from the guess `guess`.
-    fn solve(&mut self, alpha: f64, r: &[f64], t: f64, guess: &[f64]) -> Result<Solved, NewtonFailure>;
+    fn solve(
+        &mut self,
+        alpha: f64,
+        r: &[f64],
+        t: f64,
+        guess: &[f64],
+    ) -> Result<Solved, NewtonFailure>;
     /// Solves J y = v in place with the Jacobian of the last stage solved.
     fn solve_with_last_jacobian(&self, v: &mut [f64]);
     /// The Newton guess for a step to `t` (an extrapolation of the history).
@@ -242,7 +251,9 @@ impl Method for TrBdf2 {
         // (alpha2 C + G)^-1 alpha2 to bring it to the unknowns (common practice for stiff problems).
         let [e0, e1, e2] = TRBDF2_EMBEDDED;
         let mut est: Vec<f64> = (0..cur.q.len())
-            .map(|i| h * ((w - e0) * cur.qdot[i] + (w - e1) * mid.qdot[i] + (d - e2) * end.qdot[i]) * a2)
+            .map(|i| {
+                h * ((w - e0) * cur.qdot[i] + (w - e1) * mid.qdot[i] + (d - e2) * end.qdot[i]) * a2
+            })
             .collect();
         s.solve_with_last_jacobian(&mut est);
         Ok(Trial {

@@ -69,7 +69,11 @@ pub fn simulate(circuit: &Circuit, settings: &Settings) -> Result<Run, RunError>
 }
 
 /// The state at t = 0 for the given start.
-pub fn initial_state(sys: &System, settings: &Settings, newton: &mut Newton) -> Result<Vec<f64>, RunError> {
+pub fn initial_state(
+    sys: &System,
+    settings: &Settings,
+    newton: &mut Newton,
+) -> Result<Vec<f64>, RunError> {
     let tol = NewtonTolerances::from_step_tolerances(&settings.tolerances, 100);
     match settings.start {
         Start::OperatingPoint => start::operating_point(sys, &tol, newton),
@@ -95,7 +99,13 @@ impl StageSolver for Solver<'_> {
     fn previous(&self) -> Option<&Point> {
         self.prev.as_ref()
     }
-    fn solve(&mut self, alpha: f64, r: &[f64], t: f64, guess: &[f64]) -> Result<Solved, NewtonFailure> {
+    fn solve(
+        &mut self,
+        alpha: f64,
+        r: &[f64],
+        t: f64,
+        guess: &[f64],
+    ) -> Result<Solved, NewtonFailure> {
         let stage = Stage {
             sys: self.sys,
             alpha,
@@ -120,7 +130,12 @@ impl StageSolver for Solver<'_> {
         match &self.prev {
             Some(p) if p.t >= self.segment_start && self.cur.t > p.t => {
                 let s = (t - self.cur.t) / (self.cur.t - p.t);
-                self.cur.x.iter().zip(&p.x).map(|(c, p)| c + s * (c - p)).collect()
+                self.cur
+                    .x
+                    .iter()
+                    .zip(&p.x)
+                    .map(|(c, p)| c + s * (c - p))
+                    .collect()
             }
             _ => self.cur.x.clone(),
         }
@@ -170,8 +185,10 @@ impl ErrorNorm<'_> {
                 Scale::CircuitPeak => kind_peak.max(here),
             };
             let r = err[i].abs() / (t.lte_factor * (t.rtol * scale + atol));
-            if !(r <= worst) {
-                worst = if r.is_nan() { f64::INFINITY } else { r };
+            if r.is_nan() {
+                worst = f64::INFINITY;
+            } else if r > worst {
+                worst = r;
             }
         }
         worst
@@ -226,7 +243,12 @@ const NEWTON_CUT: f64 = 0.25;
 
 /// Runs the assembled equations from t = 0 to `stop`, landing on each of `breakpoints` (sorted, in
 /// (0, stop], ending with stop).
-pub fn simulate_system(sys: &System, stop: f64, breakpoints: &[f64], settings: &Settings) -> Result<Run, RunError> {
+pub fn simulate_system(
+    sys: &System,
+    stop: f64,
+    breakpoints: &[f64],
+    settings: &Settings,
+) -> Result<Run, RunError> {
     settings.validate()?;
     let clock = Instant::now();
     let sc = &settings.steps;
@@ -241,7 +263,13 @@ pub fn simulate_system(sys: &System, stop: f64, breakpoints: &[f64], settings: &
     sys.sources_into(0.0, 1.0, &mut b0);
     sys.current_into(&x0, 0.0, &mut i0, None);
     let qdot0: Vec<f64> = (0..n)
-        .map(|r| if sys.dynamic_rows[r] { b0[r] - i0[r] } else { 0.0 })
+        .map(|r| {
+            if sys.dynamic_rows[r] {
+                b0[r] - i0[r]
+            } else {
+                0.0
+            }
+        })
         .collect();
 
     let mut solver = Solver {
@@ -282,7 +310,9 @@ pub fn simulate_system(sys: &System, stop: f64, breakpoints: &[f64], settings: &
     let main_method = methods::method(settings.method);
     let be = methods::method(MethodName::BackwardEuler);
     let mut bp_idx = 0;
-    let mut h = sc.fixed_step.unwrap_or(h_max.min(breakpoints.first().copied().unwrap_or(stop)) * 0.01);
+    let mut h = sc
+        .fixed_step
+        .unwrap_or(h_max.min(breakpoints.first().copied().unwrap_or(stop)) * 0.01);
     let mut at_restart = true;
     let mut window: VecDeque<(f64, Vec<f64>)> = VecDeque::from([(0.0, x0)]);
     let mut window_formula: Option<MethodName> = None;
@@ -303,7 +333,11 @@ pub fn simulate_system(sys: &System, stop: f64, breakpoints: &[f64], settings: &
         };
         // Land on the next breakpoint without leaving a sliver.
         let bp = breakpoints.get(bp_idx).copied().unwrap_or(stop);
-        let limit = if sc.fixed_step.is_some() { f64::INFINITY } else { h_max };
+        let limit = if sc.fixed_step.is_some() {
+            f64::INFINITY
+        } else {
+            h_max
+        };
         let mut hh = h.min(limit);
         let remaining = bp - t;
         let mut lands = false;
@@ -339,7 +373,9 @@ pub fn simulate_system(sys: &System, stop: f64, breakpoints: &[f64], settings: &
 
         // The formula actually used decides which history is valid for the estimate.
         if window_formula != Some(trial.used) {
-            let last = window.pop_back().expect("the window holds the present point");
+            let last = window
+                .pop_back()
+                .expect("the window holds the present point");
             window.clear();
             window.push_back(last);
             window_formula = Some(trial.used);
@@ -351,9 +387,15 @@ pub fn simulate_system(sys: &System, stop: f64, breakpoints: &[f64], settings: &
         } else {
             let err_and_base = match &trial.estimate {
                 Estimate::Embedded(e) => Some((e.clone(), hh)),
-                Estimate::FromHistory { coefficient } if window.len() >= points_needed(trial.order) => {
+                Estimate::FromHistory { coefficient }
+                    if window.len() >= points_needed(trial.order) =>
+                {
                     let k = points_needed(trial.order);
-                    let mut pts: Vec<(f64, &[f64])> = window.iter().skip(window.len() - k).map(|(t, x)| (*t, x.as_slice())).collect();
+                    let mut pts: Vec<(f64, &[f64])> = window
+                        .iter()
+                        .skip(window.len() - k)
+                        .map(|(t, x)| (*t, x.as_slice()))
+                        .collect();
                     pts.push((t + hh, trial.point.x.as_slice()));
                     let d = derivative_estimate(&pts);
                     Some((d.into_iter().map(|v| v * coefficient).collect(), hh))
@@ -376,7 +418,9 @@ pub fn simulate_system(sys: &System, stop: f64, breakpoints: &[f64], settings: &
                     // Step doubling with the formula that was used.
                     let used = methods::method(trial.used);
                     match double_check(&mut solver, used, &trial, hh, &norm, sc.safety) {
-                        Ok(Doubled::Accept { mid, end, factor }) => (vec![mid, end], hh / 2.0 * factor.min(sc.growth_limit)),
+                        Ok(Doubled::Accept { mid, end, factor }) => {
+                            (vec![mid, end], hh / 2.0 * factor.min(sc.growth_limit))
+                        }
                         Ok(Doubled::Reject { factor }) => {
                             stats.rejected_steps += 1;
                             h = hh / 2.0 * factor.clamp(sc.shrink_limit, 0.9);
@@ -401,7 +445,11 @@ pub fn simulate_system(sys: &System, stop: f64, breakpoints: &[f64], settings: &
         let count = accepted_points.len();
         for (j, pt) in accepted_points.into_iter().enumerate() {
             let last = j + 1 == count;
-            let tj = if last && lands { bp } else { t + hh * (j + 1) as f64 / count as f64 };
+            let tj = if last && lands {
+                bp
+            } else {
+                t + hh * (j + 1) as f64 / count as f64
+            };
             norm.observe(&pt.x);
             rec.record(tj, &pt.x);
             window.push_back((tj, pt.x.clone()));
@@ -451,8 +499,14 @@ fn step_factor(ratio: f64, order: f64, safety: f64) -> f64 {
 }
 
 enum Doubled {
-    Accept { mid: Solved, end: Solved, factor: f64 },
-    Reject { factor: f64 },
+    Accept {
+        mid: Solved,
+        end: Solved,
+        factor: f64,
+    },
+    Reject {
+        factor: f64,
+    },
 }
 
 /// Checks `full` (one step of `h`) against two steps of `h / 2` with the same formula. The error of each

@@ -145,7 +145,10 @@ impl Newton {
                 break;
             }
             if !cached {
-                let lu = self.jac.factor().map_err(|Singular { column }| NewtonFailure::Singular { unknown: column })?;
+                let lu = self
+                    .jac
+                    .factor()
+                    .map_err(|Singular { column }| NewtonFailure::Singular { unknown: column })?;
                 self.work.factorizations += 1;
                 match key {
                     Some(kk) => {
@@ -165,7 +168,9 @@ impl Newton {
                 *d = -f;
             }
             let mut dx = std::mem::take(&mut self.dx);
-            self.last_factorization().expect("factored above").solve(&mut dx);
+            self.last_factorization()
+                .expect("factored above")
+                .solve(&mut dx);
             self.dx = dx;
             self.work.newton_iterations += 1;
             let lambda = eq.damping(x, &self.dx);
@@ -190,17 +195,24 @@ impl Newton {
             }
         }
         let (worst_row, residual) = self.worst_residual(eq, tol);
-        Err(NewtonFailure::NoConvergence { worst_row, residual })
+        Err(NewtonFailure::NoConvergence {
+            worst_row,
+            residual,
+        })
     }
 
     fn residual_ok<E: Equations>(&self, eq: &E, tol: &NewtonTolerances) -> bool {
-        self.f.iter().zip(&self.scale).enumerate().all(|(r, (f, s))| {
-            let atol = match eq.row_kind(r) {
-                UnknownKind::Voltage => tol.atol_v,
-                UnknownKind::Current => tol.atol_i,
-            };
-            f.abs() <= tol.rtol * s + atol
-        })
+        self.f
+            .iter()
+            .zip(&self.scale)
+            .enumerate()
+            .all(|(r, (f, s))| {
+                let atol = match eq.row_kind(r) {
+                    UnknownKind::Voltage => tol.atol_v,
+                    UnknownKind::Current => tol.atol_i,
+                };
+                f.abs() <= tol.rtol * s + atol
+            })
     }
 
     fn worst_residual<E: Equations>(&self, eq: &E, tol: &NewtonTolerances) -> (usize, f64) {
@@ -265,7 +277,12 @@ impl Equations for Stage<'_> {
         }
         for r in 0..n {
             let aq = self.alpha * q[r];
-            let i = f[r] + if r < self.sys.node_count { self.shunt * x[r] } else { 0.0 };
+            let i = f[r]
+                + if r < self.sys.node_count {
+                    self.shunt * x[r]
+                } else {
+                    0.0
+                };
             f[r] = aq + i - b[r] - self.r[r];
             scale[r] = aq.abs().max(i.abs()).max(b[r].abs()).max(self.r[r].abs());
         }

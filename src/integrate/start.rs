@@ -7,7 +7,11 @@ use crate::equations::matrix::Matrix;
 use crate::equations::{System, UnknownKind};
 
 /// The operating point with the sources at their t = 0 values.
-pub fn operating_point(sys: &System, tol: &NewtonTolerances, newton: &mut Newton) -> Result<Vec<f64>, RunError> {
+pub fn operating_point(
+    sys: &System,
+    tol: &NewtonTolerances,
+    newton: &mut Newton,
+) -> Result<Vec<f64>, RunError> {
     let n = sys.size();
     let zero = vec![0.0; n];
     let stage = |shunt: f64, factor: f64| Stage {
@@ -67,7 +71,10 @@ pub fn operating_point(sys: &System, tol: &NewtonTolerances, newton: &mut Newton
         return Ok(x);
     }
     let (worst, residual) = match first {
-        NewtonFailure::NoConvergence { worst_row, residual } => (worst_row, residual),
+        NewtonFailure::NoConvergence {
+            worst_row,
+            residual,
+        } => (worst_row, residual),
         _ => (0, f64::NAN),
     };
     Err(RunError::OperatingPoint {
@@ -161,7 +168,10 @@ impl Equations for Held<'_> {
     }
 
     fn unknown_kind(&self, i: usize) -> UnknownKind {
-        self.sys.unknowns.get(i).map_or(UnknownKind::Current, |u| u.kind)
+        self.sys
+            .unknowns
+            .get(i)
+            .map_or(UnknownKind::Current, |u| u.kind)
     }
 
     fn row_kind(&self, r: usize) -> UnknownKind {
@@ -178,7 +188,11 @@ impl Equations for Held<'_> {
 }
 
 /// The consistent state at t = 0 with capacitors and inductors holding their initial values.
-pub fn initial_conditions(sys: &System, tol: &NewtonTolerances, newton: &mut Newton) -> Result<Vec<f64>, RunError> {
+pub fn initial_conditions(
+    sys: &System,
+    tol: &NewtonTolerances,
+    newton: &mut Newton,
+) -> Result<Vec<f64>, RunError> {
     let n = sys.size();
     let caps: Vec<(usize, usize)> = sys
         .held_voltages
@@ -205,7 +219,10 @@ pub fn initial_conditions(sys: &System, tol: &NewtonTolerances, newton: &mut New
                 unknown: if unknown < n {
                     sys.describe_unknown(unknown)
                 } else {
-                    format!("the current of capacitor {}", sys.held_voltages[eq.caps[unknown - n].0].element)
+                    format!(
+                        "the current of capacitor {}",
+                        sys.held_voltages[eq.caps[unknown - n].0].element
+                    )
                 },
             })
         }
@@ -214,7 +231,10 @@ pub fn initial_conditions(sys: &System, tol: &NewtonTolerances, newton: &mut New
                 worst: if worst_row < n {
                     sys.describe_unknown(worst_row)
                 } else {
-                    format!("capacitor {}", sys.held_voltages[eq.caps[worst_row - n].0].element)
+                    format!(
+                        "capacitor {}",
+                        sys.held_voltages[eq.caps[worst_row - n].0].element
+                    )
                 },
             })
         }

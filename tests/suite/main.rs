@@ -1,0 +1,10 @@
+//! The integration tests, one module per concern. Each check of the engine against the outside world
+//! names its source beside it.
+
+mod closed_forms;
+mod common;
+mod conservation;
+mod diode;
+mod order;
+mod stability;
+mod validation;

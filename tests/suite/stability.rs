@@ -1,0 +1,136 @@
+//! One fixed step on the first-order RC v' = -v / (R C) reproduces each method's stability function
+//! R(z), z = h lambda, to 1e-12 over z from -0.01 to -1e4.
+//!
+//! Sources: backward Euler 1 / (1 - z) and trapezoidal (1 + z/2) / (1 - z/2) (Hairer & Wanner, *Solving
+//! ODEs II*, IV.3); TR-BDF2 in the two-stage form of Bank et al. (IEEE Trans. Electron Devices 32(10),
+//! 1985) as analysed by Hosea & Shampine (Appl. Numer. Math. 20, 1996): a trapezoidal stage over
+//! gamma h, then y1 = [y_gamma - (1 - gamma)^2 y0] / (gamma (2 - gamma)) + (1 - gamma) / (2 - gamma) h f1;
+//! BDF2 (started by one backward-Euler step) against the roots of its characteristic equation
+//! (3 - 2z) zeta^2 - 4 zeta + 1 = 0 (Hairer & Wanner, *Solving ODEs II*, V.1).
+
+use crate::common::{circuit, run};
+use ringtrue::settings::{MethodName, Restart, Start};
+
+/// R = 1 ohm, C = 1 F: lambda = -1 /s, so a step of h seconds is z = -h.
+fn decay_circuit(stop: f64) -> ringtrue::circuit::Circuit {
+    circuit(&format!(
+        "name: decay\nelements:\n  - {{ kind: resistor, name: r1, nodes: [top, gnd], value: 1 }}\n  - {{ kind: capacitor, name: c1, nodes: [top, gnd], value: 1, initial_voltage: 1 }}\nrun: {{ stop: {stop}, start: initial_conditions }}\nwatch: [top]\n"
+    ))
+}
+
+fn zs() -> Vec<f64> {
+    // -0.01 to -1e4, eight points per decade
+    (0..=48)
+        .map(|k| -(10f64.powf(-2.0 + k as f64 / 8.0)))
+        .collect()
+}
+
+fn one_step(method: MethodName, z: f64) -> f64 {
+    let h = -z;
+    let c = decay_circuit(h);
+    let r = run(&c, method, |s| {
+        s.steps.fixed_step = Some(h);
+        s.steps.restart = Restart::Same;
+        s.start = Start::InitialConditions;
+    });
+    let v = r.trajectory.signal("top").unwrap();
+    assert_eq!(v.len(), 2, "one step from t = 0 to h");
+    v[1] / v[0]
+}
+
+#[test]
+fn backward_euler_stability_function() {
+    for z in zs() {
+        let got = one_step(MethodName::BackwardEuler, z);
+        let want = 1.0 / (1.0 - z);
+        assert!((got - want).abs() <= 1e-12, "z = {z}: {got} vs {want}");
+    }
+}
+
+#[test]
+fn trapezoidal_stability_function() {
+    for z in zs() {
+        let got = one_step(MethodName::Trapezoidal, z);
+        let want = (1.0 + z / 2.0) / (1.0 - z / 2.0);
+        assert!((got - want).abs() <= 1e-12, "z = {z}: {got} vs {want}");
+    }
+}
+
+#[test]
+fn tr_bdf2_stability_function() {
+    let g = 2.0 - 2f64.sqrt();
+    for z in zs() {
+        let got = one_step(MethodName::TrBdf2, z);
+        let y_gamma = (1.0 + g * z / 2.0) / (1.0 - g * z / 2.0);
+        let want =
+            ((y_gamma - (1.0 - g).powi(2)) / (g * (2.0 - g))) / (1.0 - (1.0 - g) / (2.0 - g) * z);
+        assert!((got - want).abs() <= 1e-12, "z = {z}: {got} vs {want}");
+    }
+}
+
+#[test]
+fn tr_bdf2_is_l_stable_and_second_order() {
+    // |R(z)| -> 0 as z -> -inf (L-stability) and R(z) - e^z = O(z^3) with the error constant
+    // (3 gamma^2 - 4 gamma + 2) / (12 (2 - gamma)) ~ 0.0404 in magnitude (Bank et al. 1985).
+    assert!(one_step(MethodName::TrBdf2, -1e8).abs() < 1e-7);
+    let z = -1e-2;
+    let err = one_step(MethodName::TrBdf2, z) - z.exp();
+    let g = 2.0 - 2f64.sqrt();
+    let c = (3.0 * g * g - 4.0 * g + 2.0) / (12.0 * (2.0 - g));
+    assert!(
+        (err.abs() / (c * z.abs().powi(3)) - 1.0).abs() < 0.02,
+        "err {err:e}"
+    );
+}
+
+#[test]
+fn bdf2_follows_its_characteristic_roots() {
+    for z in zs() {
+        let h = -z;
+        let n = 6;
+        let c = decay_circuit(h * n as f64);
+        let r = run(&c, MethodName::Bdf2, |s| {
+            s.steps.fixed_step = Some(h);
+            s.steps.restart = Restart::Same;
+            s.start = Start::InitialConditions;
+        });
+        let y = r.trajectory.signal("top").unwrap();
+        assert_eq!(y.len(), n + 1);
+        // First step: BDF1 (backward Euler).
+        assert!(
+            (y[1] - 1.0 / (1.0 - z)).abs() <= 1e-12,
+            "z = {z}: first step {}",
+            y[1]
+        );
+        // Then y_n = c1 zeta1^n + c2 zeta2^n with zeta the roots of (3 - 2z) zeta^2 - 4 zeta + 1 = 0.
+        let (a, b, cc) = (3.0 - 2.0 * z, -4.0, 1.0);
+        let disc = b * b - 4.0 * a * cc; // = 4 + 8z: negative for z < -1/2 (complex roots)
+        let (re, im) = if disc >= 0.0 {
+            (0.0, 0.0)
+        } else {
+            (-b / (2.0 * a), (-disc).sqrt() / (2.0 * a))
+        };
+        for k in 2..=n {
+            let want = if disc >= 0.0 {
+                let s = disc.sqrt();
+                let (z1, z2) = ((-b + s) / (2.0 * a), (-b - s) / (2.0 * a));
+                // y0 = c1 + c2, y1 = c1 z1 + c2 z2
+                let c2 = (y[1] - z1 * y[0]) / (z2 - z1);
+                let c1 = y[0] - c2;
+                c1 * z1.powi(k as i32) + c2 * z2.powi(k as i32)
+            } else {
+                // complex pair r e^{+-i th}: y_k = r^k (A cos k th + B sin k th)
+                let rr = (re * re + im * im).sqrt();
+                let th = im.atan2(re);
+                let aa = y[0];
+                let bb = (y[1] / rr - aa * th.cos()) / th.sin();
+                rr.powi(k as i32) * (aa * (k as f64 * th).cos() + bb * (k as f64 * th).sin())
+            };
+            assert!(
+                (y[k] - want).abs() <= 1e-12,
+                "z = {z}, step {k}: {} vs {want}",
+                y[k]
+            );
+        }
+    }
+}

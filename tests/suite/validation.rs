@@ -1,0 +1,282 @@
+//! One test per validation rule: the binary exits with code 2, names the element or node, and never
+//! panics.
+
+use crate::common::{ringtrue, scratch};
+
+const GOOD: &str = "name: ok\nelements:\n  - { kind: voltage_source, name: v1, nodes: [in, gnd], value: 1 }\n  - { kind: resistor, name: r1, nodes: [in, out], value: 1k }\n  - { kind: capacitor, name: c1, nodes: [out, gnd], value: 1n }\nrun: { stop: 1u }\nwatch: [out]\n";
+
+/// Runs `check` on `text` and asserts exit code 2 with every `needles` in the message.
+fn refused(name: &str, text: &str, needles: &[&str]) {
+    let dir = scratch(name);
+    let path = dir.join(format!("{name}.yaml"));
+    std::fs::write(&path, text).unwrap();
+    let out = ringtrue(&["check", path.to_str().unwrap()]);
+    assert_eq!(
+        out.code, 2,
+        "{name}: expected exit 2, got {}\n{}",
+        out.code, out.stderr
+    );
+    for n in needles {
+        assert!(
+            out.stderr.contains(n),
+            "{name}: message lacks '{n}':\n{}",
+            out.stderr
+        );
+    }
+    assert!(
+        out.stderr.contains(&format!("{name}.yaml")),
+        "{name}: message lacks the file name:\n{}",
+        out.stderr
+    );
+    assert!(!out.stderr.contains("panicked"), "{name}: panicked");
+}
+
+#[test]
+fn a_good_circuit_passes() {
+    let dir = scratch("good");
+    let path = dir.join("good.yaml");
+    std::fs::write(&path, GOOD).unwrap();
+    let out = ringtrue(&["check", path.to_str().unwrap()]);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    assert!(out.stdout.contains("unknowns"), "{}", out.stdout);
+}
+
+#[test]
+fn duplicate_names() {
+    let t = GOOD.replace("name: c1", "name: r1");
+    refused(
+        "duplicate",
+        &t,
+        &["element r1", "more than one element", ":5"],
+    );
+}
+
+#[test]
+fn unknown_watched_node() {
+    let t = GOOD.replace("watch: [out]", "watch: [outt]");
+    refused("watchnode", &t, &["outt", "not a node"]);
+}
+
+#[test]
+fn unknown_watched_element() {
+    let t = GOOD.replace("watch: [out]", "watch: [r9.current]");
+    refused("watchelem", &t, &["r9", "no element"]);
+}
+
+#[test]
+fn non_positive_value() {
+    let t = GOOD.replace("value: 1k", "value: -1k");
+    refused("negative", &t, &["element r1", "must be positive", ":4"]);
+}
+
+#[test]
+fn zero_capacitance() {
+    let t = GOOD.replace("value: 1n", "value: 0");
+    refused("zerocap", &t, &["element c1", "must be positive"]);
+}
+
+#[test]
+fn wrong_unit() {
+    let t = GOOD.replace("value: 1n", "value: 1nH");
+    refused("unit", &t, &["element c1", "capacitance"]);
+}
+
+#[test]
+fn non_finite_value() {
+    let t = GOOD.replace("value: 1k", "value: .inf");
+    refused("infinite", &t, &["element r1", "not finite"]);
+}
+
+#[test]
+fn unknown_key() {
+    let t = GOOD.replace("value: 1k }", "value: 1k, tolerance: 5 }");
+    refused(
+        "unknownkey",
+        &t,
+        &["element r1", "unknown field", "tolerance", ":4"],
+    );
+}
+
+#[test]
+fn key_of_another_kind() {
+    let t = GOOD.replace("value: 1k }", "value: 1k, initial_voltage: 1 }");
+    refused(
+        "otherkey",
+        &t,
+        &["element r1", "initial_voltage", "does not apply"],
+    );
+}
+
+#[test]
+fn pwl_times_not_increasing() {
+    let t = GOOD.replace(
+        "value: 1 }",
+        "waveform: { piecewise_linear: [[0, 0], [2n, 1], [1n, 0]] } }",
+    );
+    refused("pwl", &t, &["element v1", "strictly increasing"]);
+}
+
+#[test]
+fn node_not_connected_to_ground() {
+    let t = GOOD.replace(
+        "  - { kind: capacitor",
+        "  - { kind: resistor, name: r2, nodes: [island, island2], value: 1k }\n  - { kind: capacitor",
+    );
+    refused("floating", &t, &["node island", "no path to ground"]);
+}
+
+#[test]
+fn loop_of_voltage_sources() {
+    let t = GOOD.replace(
+        "  - { kind: resistor, name: r1",
+        "  - { kind: voltage_source, name: v2, nodes: [in, gnd], value: 2 }\n  - { kind: resistor, name: r1",
+    );
+    refused(
+        "vloop",
+        &t,
+        &["element v2", "loop of voltage sources", "v1"],
+    );
+}
+
+#[test]
+fn loop_of_source_and_inductor_at_operating_point() {
+    let t = GOOD.replace(
+        "  - { kind: resistor, name: r1",
+        "  - { kind: inductor, name: l1, nodes: [in, gnd], value: 1u }\n  - { kind: resistor, name: r1",
+    );
+    refused(
+        "vlloop",
+        &t,
+        &["element l1", "inductors", "operating point"],
+    );
+    // The same loop is fine when the run starts from initial conditions.
+    let ok = t.replace(
+        "run: { stop: 1u }",
+        "run: { stop: 1u, start: initial_conditions }",
+    );
+    let dir = scratch("vlloop-ic");
+    let path = dir.join("ic.yaml");
+    std::fs::write(&path, ok).unwrap();
+    assert_eq!(ringtrue(&["check", path.to_str().unwrap()]).code, 0);
+}
+
+#[test]
+fn cutset_of_current_source_and_capacitor_at_operating_point() {
+    let t = "name: cut\nelements:\n  - { kind: current_source, name: i1, nodes: [gnd, top], value: 1m }\n  - { kind: capacitor, name: c1, nodes: [top, gnd], value: 1n }\nrun: { stop: 1u }\n";
+    refused(
+        "cutset",
+        t,
+        &["node top", "capacitors and current sources", "i1", "c1"],
+    );
+}
+
+#[test]
+fn cutset_of_current_sources_alone() {
+    let t = "name: cut2\nelements:\n  - { kind: current_source, name: i1, nodes: [gnd, top], value: 1m }\n  - { kind: resistor, name: r1, nodes: [top, mid], value: 1k }\n  - { kind: current_source, name: i2, nodes: [mid, gnd], value: 1m }\nrun: { stop: 1u, start: initial_conditions }\n";
+    refused("cutset2", t, &["node top", "only through current sources"]);
+}
+
+#[test]
+fn unknown_kind() {
+    let t = GOOD.replace("kind: resistor", "kind: resistr");
+    refused("kind", &t, &["element r1", "unknown kind 'resistr'"]);
+}
+
+#[test]
+fn control_of_wrong_kind() {
+    let t = GOOD.replace(
+        "  - { kind: capacitor",
+        "  - { kind: cccs, name: f1, nodes: [out, gnd], control: r1, gain: 2 }\n  - { kind: capacitor",
+    );
+    refused("control", &t, &["element f1", "r1", "resistor"]);
+}
+
+#[test]
+fn coupling_of_non_inductors() {
+    let t = GOOD.replace(
+        "  - { kind: capacitor",
+        "  - { kind: coupling, name: k1, inductors: [r1, c1], k: 0.5 }\n  - { kind: capacitor",
+    );
+    refused("coupling", &t, &["element k1", "not an inductor"]);
+}
+
+#[test]
+fn yaml_syntax_error() {
+    refused("syntax", "name: x\nelements: [\n", &["syntax.yaml:"]);
+}
+
+#[test]
+fn malformed_inputs_never_panic() {
+    let dir = scratch("fuzz");
+    let cases = [
+        "",
+        "name: x",
+        "[1, 2]",
+        "name: x\nelements: []\nrun: { stop: 1u }\n",
+        "name: x\nelements: [{kind: resistor, name: r, nodes: [a], value: 1}]\nrun: {stop: 1}\n",
+        "name: x\nelements: [{kind: resistor, name: r, nodes: [a, a], value: 1}]\nrun: {stop: 1}\n",
+        "name: x\nelements: [{kind: voltage_source, name: v, nodes: [a, gnd], waveform: {pulse: {high: 1, width: 1n, period: 0}}}]\nrun: {stop: 1}\n",
+        "name: x\nelements: [{kind: voltage_source, name: v, nodes: [a, gnd], waveform: {step: {to: 1}, sine: {amplitude: 1, frequency: 1}}}]\nrun: {stop: 1}\n",
+        "name: x\nelements: [{kind: resistor, name: r, nodes: [a, gnd], value: 1}]\nrun: {stop: -1}\n",
+        "name: x\nelements: [{kind: resistor, name: r, nodes: [a, gnd], value: 1}]\nrun: {stop: 1, rtol: 5}\n",
+        "name: x\nelements: [{kind: diode, name: d, nodes: [a, gnd], saturation_current: 0}]\nrun: {stop: 1}\n",
+        "name: x\nelements: [{kind: switch, name: s, nodes: [a, gnd], on_resistance: 10, off_resistance: 1, transition: 1n}]\nrun: {stop: 1}\n",
+        "name: x\nelements: [{kind: vcvs, name: e, nodes: [a, gnd], control: [b, gnd], gain: 1}]\nrun: {stop: 1}\n",
+        "name: X Y\nelements: [{kind: resistor, name: r, nodes: [a, gnd], value: 1}]\nrun: {stop: 1}\n",
+    ];
+    for (k, text) in cases.iter().enumerate() {
+        let path = dir.join(format!("case{k}.yaml"));
+        std::fs::write(&path, text).unwrap();
+        for args in [vec!["check"], vec!["simulate", "--method", "bdf2", "--csv"]] {
+            let csv = dir.join(format!("case{k}.csv"));
+            let mut a: Vec<&str> = args.clone();
+            if args.len() > 1 {
+                a.push(csv.to_str().unwrap());
+            }
+            a.push(path.to_str().unwrap());
+            let out = ringtrue(&a);
+            assert_eq!(
+                out.code, 2,
+                "case {k} ({text:?}) with {args:?}: exit {}\n{}",
+                out.code, out.stderr
+            );
+            assert!(!out.stderr.contains("panicked"));
+        }
+    }
+}
+
+#[test]
+fn bad_flags_are_usage_errors() {
+    let dir = scratch("flags");
+    let path = dir.join("ok.yaml");
+    std::fs::write(&path, GOOD).unwrap();
+    let p = path.to_str().unwrap();
+    let csv = dir.join("o.csv");
+    let c = csv.to_str().unwrap();
+    for args in [
+        vec!["simulate", p, "--method", "gear", "--csv", c],
+        vec!["simulate", p, "--method", "bdf2", "--rtol", "0", "--csv", c],
+        vec![
+            "simulate",
+            p,
+            "--method",
+            "bdf2",
+            "--max-step",
+            "1nH",
+            "--csv",
+            c,
+        ],
+        vec!["simulate", p, "--csv", c],
+        vec![
+            "simulate",
+            "/nonexistent/file.yaml",
+            "--method",
+            "bdf2",
+            "--csv",
+            c,
+        ],
+    ] {
+        let out = ringtrue(&args);
+        assert_eq!(out.code, 2, "{args:?}: {}", out.stderr);
+    }
+}
