@@ -5,6 +5,7 @@
 //! step control, breakpoints, Newton). Numerical modules never print and never touch files; the binary
 //! adds context to their typed errors once.
 
+pub mod catalogue;
 pub mod circuit;
 pub mod equations;
 pub mod integrate;
