@@ -5,10 +5,13 @@
 //! step control, breakpoints, Newton). Numerical modules never print and never touch files; the binary
 //! adds context to their typed errors once.
 
+pub mod audit;
 pub mod catalogue;
 pub mod circuit;
 pub mod equations;
 pub mod integrate;
 pub mod output;
+pub mod reference;
+pub mod report;
 pub mod settings;
 pub mod units;

@@ -218,10 +218,10 @@ impl Default for Tolerances {
     fn default() -> Self {
         Tolerances {
             rtol: 1e-3,
-            atol_v: 1e-6,
-            atol_i: 1e-9,
+            atol_v: 1e-9,
+            atol_i: 1e-12,
             lte_factor: 1.0,
-            scale: Scale::Value,
+            scale: Scale::SignalPeak,
         }
     }
 }
@@ -273,6 +273,8 @@ pub struct StepControl {
     pub min_step_fraction: f64,
     /// Most steps (accepted and rejected) a run may take.
     pub step_budget: u64,
+    /// Most wall-clock seconds a run may take (a safety net for audits; `None` for no limit).
+    pub time_budget: Option<f64>,
 }
 
 impl Default for StepControl {
@@ -286,6 +288,7 @@ impl Default for StepControl {
             safety: 0.9,
             min_step_fraction: 1e-14,
             step_budget: 2_000_000,
+            time_budget: None,
         }
     }
 }

@@ -10,6 +10,16 @@ use ringtrue::settings::{Overrides, Settings};
 use std::collections::BTreeMap;
 use std::path::Path;
 
+fn load_with_text(file: &Path) -> Result<(Circuit, Vec<u8>), Failure> {
+    let bytes = std::fs::read(file)
+        .map_err(|e| Failure::BadInput(anyhow!("cannot read {}: {e}", file.display())))?;
+    let text = String::from_utf8(bytes.clone())
+        .map_err(|_| Failure::BadInput(anyhow!("{} is not UTF-8 text", file.display())))?;
+    let c = circuit::parse(&text, &file.display().to_string())
+        .map_err(|e| Failure::BadInput(anyhow!("{e}")))?;
+    Ok((c, bytes))
+}
+
 fn load(file: &Path) -> Result<Circuit, Failure> {
     circuit::load(file)
         .map(|(c, _)| c)
@@ -120,4 +130,229 @@ pub fn simulate(
         s.cpu_seconds
     );
     Ok(())
+}
+
+/// Reads the times in the first column of a CSV file with a header row.
+fn read_times(path: &Path) -> Result<Vec<f64>, Failure> {
+    let mut rdr = csv::ReaderBuilder::new()
+        .has_headers(true)
+        .from_path(path)
+        .map_err(|e| Failure::BadInput(anyhow!("cannot read {}: {e}", path.display())))?;
+    let mut times = Vec::new();
+    for (i, rec) in rdr.records().enumerate() {
+        let rec =
+            rec.map_err(|e| Failure::BadInput(anyhow!("{}: row {}: {e}", path.display(), i + 2)))?;
+        let field = rec.get(0).unwrap_or("").trim();
+        let t: f64 = field.parse().map_err(|_| {
+            Failure::BadInput(anyhow!(
+                "{}:{}: the first column holds '{field}', which is not a time in seconds; the first column must be time",
+                path.display(),
+                i + 2
+            ))
+        })?;
+        if !t.is_finite() || t < 0.0 {
+            return Err(Failure::BadInput(anyhow!(
+                "{}:{}: time {field} must be finite and not negative",
+                path.display(),
+                i + 2
+            )));
+        }
+        times.push(t);
+    }
+    Ok(times)
+}
+
+pub fn reference(
+    file: &Path,
+    points: Option<usize>,
+    at: Option<&Path>,
+    csv: &Path,
+    start: Option<ringtrue::settings::Start>,
+) -> Result<(), Failure> {
+    use ringtrue::reference::Reference;
+    let c = load(file)?;
+    let mut settings = Settings::new(ringtrue::settings::MethodName::TrBdf2);
+    settings.apply(&c.run.settings);
+    if let Some(s) = start {
+        settings.start = s;
+    }
+    let times = match (points, at) {
+        (Some(n), _) if n < 2 => {
+            return Err(Failure::BadInput(anyhow!(
+                "--points must be at least 2 (the first time is 0, the last the stop time)"
+            )))
+        }
+        (Some(n), _) => Reference::uniform_times(c.run.stop, n),
+        (None, Some(p)) => read_times(p)?,
+        (None, None) => {
+            return Err(Failure::BadInput(anyhow!(
+                "give --points N or --at OTHER.csv"
+            )))
+        }
+    };
+    let r = Reference::build(&c, &settings)
+        .map_err(|e| Failure::BadInput(anyhow!("{}: {e}", c.file)))?;
+    let values = r.evaluate(&times);
+    let traj = integrate::Trajectory {
+        labels: r.labels.clone(),
+        times,
+        values,
+    };
+    write_atomic(csv, &output::trajectory_csv(&traj))?;
+    eprintln!(
+        "{}: reference {} (error bound {:e} of each signal's peak)",
+        c.file,
+        r.kind.label(),
+        r.error_bound
+    );
+    if let Some(w) = &r.warning {
+        eprintln!("warning: {w}");
+    }
+    Ok(())
+}
+
+/// The present time as an RFC 3339 UTC timestamp, e.g. 2026-12-01T22:22:55Z.
+pub fn now_utc() -> String {
+    let secs = std::time::SystemTime::now()
+        .duration_since(std::time::UNIX_EPOCH)
+        .map(|d| d.as_secs() as i64)
+        .unwrap_or(0);
+    let (days, rem) = (secs.div_euclid(86_400), secs.rem_euclid(86_400));
+    // civil date from days since 1970-01-01 (H. Hinnant's algorithm, public domain)
+    let z = days + 719_468;
+    let era = z.div_euclid(146_097);
+    let doe = z - era * 146_097;
+    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
+    let y = yoe + era * 400;
+    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
+    let mp = (5 * doy + 2) / 153;
+    let d = doy - (153 * mp + 2) / 5 + 1;
+    let m = if mp < 10 { mp + 3 } else { mp - 9 };
+    let y = if m <= 2 { y + 1 } else { y };
+    format!(
+        "{y:04}-{m:02}-{d:02}T{:02}:{:02}:{:02}Z",
+        rem / 3600,
+        rem % 3600 / 60,
+        rem % 60
+    )
+}
+
+/// The command line as typed, quoted where needed, to reproduce a report.
+pub fn command_line() -> String {
+    std::env::args()
+        .map(|a| {
+            if a.is_empty() || a.contains(|c: char| c.is_whitespace() || "'\"$`\\".contains(c)) {
+                format!("'{}'", a.replace('\'', "'\\''"))
+            } else {
+                a
+            }
+        })
+        .collect::<Vec<_>>()
+        .join(" ")
+}
+
+fn load_plan(c: &Circuit, plan_file: Option<&Path>) -> Result<ringtrue::audit::Plan, Failure> {
+    use ringtrue::audit::Plan;
+    use ringtrue::circuit::raw::RawPlan;
+    match plan_file {
+        Some(p) => {
+            let text = std::fs::read_to_string(p)
+                .map_err(|e| Failure::BadInput(anyhow!("cannot read {}: {e}", p.display())))?;
+            let raw: RawPlan = ringtrue::circuit::yaml::from_str(&text).map_err(|e| {
+                Failure::BadInput(anyhow!(
+                    "{}:{}: {}; the plan file holds the plan map (methods, rtol, atol_v, atol_i, lte_factor, max_step, fixed_step, restart, scale, step_budget, target)",
+                    p.display(),
+                    e.line.map_or(String::new(), |l| l.to_string()),
+                    e.message
+                ))
+            })?;
+            Plan::from_raw(&raw).map_err(|e| Failure::BadInput(anyhow!("{}: {e}", p.display())))
+        }
+        None => match &c.plan {
+            Some(raw) => {
+                Plan::from_raw(raw).map_err(|e| Failure::BadInput(anyhow!("{}: {e}", c.file)))
+            }
+            None => Ok(Plan::default()),
+        },
+    }
+}
+
+pub fn audit(
+    file: &Path,
+    out: Option<&Path>,
+    jobs: Option<u32>,
+    target: Option<f64>,
+    plan_file: Option<&Path>,
+    cell_seconds: f64,
+) -> Result<(), Failure> {
+    use ringtrue::audit::{self, results};
+    let (c, bytes) = load_with_text(file)?;
+    let mut plan = load_plan(&c, plan_file)?;
+    if let Some(t) = target {
+        plan.target = t;
+    }
+    plan.validate()
+        .map_err(|e| Failure::BadInput(anyhow!("{e}")))?;
+    if !(cell_seconds.is_finite() && cell_seconds > 0.0) {
+        return Err(Failure::BadInput(anyhow!(
+            "--cell-seconds must be a positive number of seconds"
+        )));
+    }
+    let jobs = jobs
+        .map(|j| j as usize)
+        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
+    let dir = out
+        .map(Path::to_path_buf)
+        .unwrap_or_else(|| Path::new("reports").join(&c.name));
+    let bar = super::progress::Progress::new(plan.size() as u64);
+    let options = audit::Options { jobs, cell_seconds };
+    let a = audit::run(&c, &plan, &options, &|failed| bar.cell_done(failed))
+        .map_err(|e| Failure::BadInput(anyhow!("{}: {e}", c.file)))?;
+    bar.finish();
+    let sha = results::sha256_hex(&bytes);
+    let created = now_utc();
+    let command = command_line();
+    let prov = results::Provenance {
+        file: &c.file,
+        title: &c.title,
+        sha256: &sha,
+        created: &created,
+        command: &command,
+        stop: c.run.stop,
+    };
+    let json = results::results_json(&a, &prov);
+    let text = serde_json::to_string_pretty(&json).expect("JSON values serialize") + "\n";
+    write_atomic(&dir.join("results.json"), &text)?;
+    let html = ringtrue::report::render(&a, &c, &prov);
+    write_atomic(&dir.join("report.html"), &html)?;
+    let passing = a.cells.iter().filter(|x| x.meets_target).count();
+    let failed = a.cells.iter().filter(|x| !x.ok()).count();
+    println!(
+        "{}: {} cells, {passing} meet the target {:e}, {failed} failed; reference {} (error bound {:.1e})",
+        c.file,
+        a.cells.len(),
+        a.target,
+        a.reference.kind.label(),
+        a.reference.error_bound
+    );
+    if let Some(w) = &a.reference.warning {
+        println!("warning: {w}");
+    }
+    match a.recommendation {
+        Some(_) => println!("recommended: {}", a.recommendation_reason),
+        None => println!("no recommendation: {}", a.recommendation_reason),
+    }
+    println!(
+        "wrote {} and {}",
+        dir.join("results.json").display(),
+        dir.join("report.html").display()
+    );
+    if a.target_met() {
+        Ok(())
+    } else {
+        Err(Failure::NotMet(anyhow!(
+            "no cell meets the target {:e}",
+            a.target
+        )))
+    }
 }

@@ -3,6 +3,7 @@
 //! 2 bad input or usage).
 
 mod commands;
+mod progress;
 
 use clap::{Args, Parser, Subcommand};
 use ringtrue::settings::{MethodName, Overrides, Restart, Scale, Start};
@@ -39,6 +40,44 @@ enum Command {
         /// Where to write the run's statistics as JSON.
         #[arg(long, value_name = "STATS.json")]
         json: Option<PathBuf>,
+    },
+    /// Rerun the circuit under every setting of the plan, measure each against the reference, and
+    /// recommend the cheapest setting that meets the target.
+    Audit {
+        /// The circuit file (YAML).
+        file: PathBuf,
+        /// Where to write results.json and report.html (default: reports/<circuit name>).
+        #[arg(long, value_name = "DIR")]
+        out: Option<PathBuf>,
+        /// Worker threads (default: every core).
+        #[arg(long, value_parser = clap::value_parser!(u32).range(1..=1024))]
+        jobs: Option<u32>,
+        /// Accuracy target: max error over the peak of each watched signal (overrides the plan's).
+        #[arg(long, value_parser = plain_value)]
+        target: Option<f64>,
+        /// A YAML file with the plan map (replaces the circuit file's plan).
+        #[arg(long, value_name = "PLAN.yaml")]
+        plan: Option<PathBuf>,
+        /// Wall-clock budget per cell, in seconds.
+        #[arg(long = "cell-seconds", default_value_t = 600.0)]
+        cell_seconds: f64,
+    },
+    /// Evaluate the circuit's reference solution at uniform times or at another file's times.
+    Reference {
+        /// The circuit file (YAML).
+        file: PathBuf,
+        /// Number of uniform times over [0, stop] (first 0, last stop).
+        #[arg(long, conflicts_with = "at", required_unless_present = "at")]
+        points: Option<usize>,
+        /// Use the times in the first column of this CSV file (with a header row).
+        #[arg(long, value_name = "OTHER.csv")]
+        at: Option<PathBuf>,
+        /// Where to write the CSV (time, then the watched signals).
+        #[arg(long, value_name = "OUT.csv")]
+        csv: PathBuf,
+        /// How the run starts: operating_point or initial_conditions (default: the file's run.start).
+        #[arg(long, value_parser = named::<Start>)]
+        start: Option<Start>,
     },
 }
 
@@ -142,6 +181,28 @@ pub fn run() -> i32 {
             csv,
             json,
         } => commands::simulate(&file, &settings.overrides(), &csv, json.as_deref()),
+        Command::Audit {
+            file,
+            out,
+            jobs,
+            target,
+            plan,
+            cell_seconds,
+        } => commands::audit(
+            &file,
+            out.as_deref(),
+            jobs,
+            target,
+            plan.as_deref(),
+            cell_seconds,
+        ),
+        Command::Reference {
+            file,
+            points,
+            at,
+            csv,
+            start,
+        } => commands::reference(&file, points, at.as_deref(), &csv, start),
     };
     match result {
         Ok(()) => 0,

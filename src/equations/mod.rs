@@ -502,6 +502,13 @@ impl System {
         }
     }
 
+    /// Each independent source's waveform with the rows it drives and the sign on each.
+    pub fn source_stamps(&self) -> impl Iterator<Item = (&Waveform, &[(usize, f64)])> {
+        self.sources
+            .iter()
+            .map(|s| (&s.waveform, s.rows.as_slice()))
+    }
+
     /// q(x): the linear charges and fluxes plus the diodes' stored charge.
     pub fn charge_into(&self, x: &[f64], q: &mut [f64]) {
         q.fill(0.0);
@@ -550,6 +557,43 @@ impl System {
             }
             if let Some(j) = jac.as_deref_mut() {
                 stamp2(j, s.a, s.b, gs);
+            }
+        }
+    }
+
+    /// The magnitude of the terms that make up each row of alpha q(x) + i(x, t): the sum of |G_rj x_j|,
+    /// |alpha C_rj x_j| and the nonlinear contributions, without cancellation. A residual smaller than a
+    /// few rounding errors of this is as converged as the arithmetic allows.
+    pub fn term_magnitudes(&self, x: &[f64], t: f64, alpha: f64, out: &mut [f64]) {
+        let n = self.size();
+        for (r, o) in out.iter_mut().enumerate().take(n) {
+            let mut s = 0.0;
+            for (j, xj) in x.iter().enumerate().take(n) {
+                let g = self.g.get(r, j);
+                if g != 0.0 {
+                    s += (g * xj).abs();
+                }
+                if alpha != 0.0 {
+                    let c = self.c.get(r, j);
+                    if c != 0.0 {
+                        s += (alpha * c * xj).abs();
+                    }
+                }
+            }
+            *o = s;
+        }
+        for d in &self.diodes {
+            let v = volt(x, d.anode) - volt(x, d.cathode);
+            let p = devices::junction(&d.model, v);
+            let m = p.current.abs() + (alpha * p.charge).abs();
+            for r in [d.anode, d.cathode].into_iter().flatten() {
+                out[r] += m;
+            }
+        }
+        for s in &self.switches {
+            let m = (s.model.conductance(t) * (volt(x, s.a) - volt(x, s.b))).abs();
+            for r in [s.a, s.b].into_iter().flatten() {
+                out[r] += m;
             }
         }
     }

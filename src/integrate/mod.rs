@@ -59,6 +59,9 @@ pub struct Run {
     pub stats: Stats,
     /// The state at the last accepted point.
     pub final_state: Vec<f64>,
+    /// The largest |voltage| and |current| of any unknown that controls the step, over the run.
+    pub peak_voltage: f64,
+    pub peak_current: f64,
 }
 
 /// Runs `circuit` with `settings` (the circuit's own `run:` settings are not applied here; see
@@ -318,6 +321,16 @@ pub fn simulate_system(
     let mut window_formula: Option<MethodName> = None;
 
     while solver.cur.t < stop {
+        if let Some(limit) = sc.time_budget {
+            if (stats.steps + stats.rejected_steps) % 64 == 0
+                && clock.elapsed().as_secs_f64() > limit
+            {
+                return Err(RunError::TimeBudget {
+                    time: solver.cur.t,
+                    seconds: limit,
+                });
+            }
+        }
         if stats.steps + stats.rejected_steps >= sc.step_budget {
             return Err(RunError::StepBudget {
                 time: solver.cur.t,
@@ -487,6 +500,8 @@ pub fn simulate_system(
         trajectory: rec.traj,
         stats,
         final_state: solver.cur.x,
+        peak_voltage: norm.peak_v,
+        peak_current: norm.peak_i,
     })
 }
 

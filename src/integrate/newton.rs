@@ -64,6 +64,10 @@ pub struct Work {
     pub factorizations: u64,
 }
 
+/// A few dozen units of double-precision rounding: residuals and updates this small relative to the
+/// terms they come from are noise.
+const ROUNDING: f64 = 64.0 * f64::EPSILON;
+
 /// How many constant-Jacobian factorizations are kept (TR-BDF2's two stages and step doubling's two
 /// step sizes alternate).
 const CACHE_SLOTS: usize = 4;
@@ -138,7 +142,7 @@ impl Newton {
             if self.f.iter().any(|v| !v.is_finite()) {
                 return Err(NewtonFailure::NotFinite);
             }
-            if k > 0 && update_ok && self.residual_ok(eq, tol) {
+            if k > 0 && ((update_ok && self.residual_ok(eq, tol)) || self.residual_at_rounding()) {
                 return Ok(());
             }
             if k == tol.max_iterations {
@@ -181,7 +185,8 @@ impl Newton {
                     UnknownKind::Voltage => tol.atol_v,
                     UnknownKind::Current => tol.atol_i,
                 };
-                if step.abs() > tol.rtol * xi.abs().max((*xi + step).abs()) + atol {
+                let size = xi.abs().max((*xi + step).abs());
+                if step.abs() > tol.rtol * size + atol && step.abs() > ROUNDING * size {
                     update_ok = false;
                 }
                 *xi += step;
@@ -199,6 +204,15 @@ impl Newton {
             worst_row,
             residual,
         })
+    }
+
+    /// Every row's residual is within a few rounding errors of the terms that make it up: no iteration
+    /// can do better in floating point.
+    fn residual_at_rounding(&self) -> bool {
+        self.f
+            .iter()
+            .zip(&self.scale)
+            .all(|(f, s)| f.abs() <= ROUNDING * s)
     }
 
     fn residual_ok<E: Equations>(&self, eq: &E, tol: &NewtonTolerances) -> bool {
@@ -275,16 +289,16 @@ impl Equations for Stage<'_> {
         if self.alpha != 0.0 {
             self.sys.charge_into(x, &mut q);
         }
+        self.sys.term_magnitudes(x, self.t, self.alpha, scale);
         for r in 0..n {
             let aq = self.alpha * q[r];
-            let i = f[r]
-                + if r < self.sys.node_count {
-                    self.shunt * x[r]
-                } else {
-                    0.0
-                };
-            f[r] = aq + i - b[r] - self.r[r];
-            scale[r] = aq.abs().max(i.abs()).max(b[r].abs()).max(self.r[r].abs());
+            let shunt = if r < self.sys.node_count {
+                self.shunt * x[r]
+            } else {
+                0.0
+            };
+            f[r] = aq + f[r] + shunt - b[r] - self.r[r];
+            scale[r] += shunt.abs() + b[r].abs() + self.r[r].abs();
         }
     }
 

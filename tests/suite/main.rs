@@ -1,10 +1,12 @@
 //! The integration tests, one module per concern. Each check of the engine against the outside world
 //! names its source beside it.
 
+mod closed_form_library;
 mod closed_forms;
 mod common;
 mod conservation;
 mod diode;
 mod order;
+mod reference_data;
 mod stability;
 mod validation;
