@@ -11,6 +11,7 @@ pub mod circuit;
 pub mod equations;
 pub mod integrate;
 pub mod output;
+pub mod poles;
 pub mod reference;
 pub mod report;
 pub mod settings;

@@ -11,6 +11,7 @@ pub mod results;
 use crate::circuit::Circuit;
 use crate::integrate::{self, Stats, Trajectory};
 use crate::reference::{Reference, ReferenceError, ReferenceKind};
+
 use crate::settings::{MethodName, Overrides, Settings};
 use measure::SignalError;
 pub use plan::Plan;
@@ -109,6 +110,8 @@ pub struct Audit {
     pub recommendation_reason: String,
     pub methods: Vec<MethodSummary>,
     pub threads: usize,
+    /// The circuit's poles at its start state (empty when they could not be computed).
+    pub poles: Vec<crate::poles::Pole>,
 }
 
 /// How to run an audit.
@@ -150,15 +153,18 @@ pub fn cell_settings(circuit: &Circuit, o: &Overrides) -> Settings {
 /// Number of uniform points used to find each signal's peak.
 const PEAK_GRID: usize = 4001;
 
-/// Runs every cell of `plan` on `circuit`. `progress` is called once per finished cell with whether it
-/// failed (from worker threads).
-pub fn run(
-    circuit: &Circuit,
-    plan: &Plan,
-    options: &Options,
-    progress: &(dyn Fn(bool) + Sync),
-) -> Result<Audit, AuditError> {
-    plan.validate()?;
+/// What every cell of a circuit is measured against: the reference, each signal's peak, the poles.
+pub struct Prepared {
+    pub reference: Reference,
+    pub labels: Vec<String>,
+    /// The peak |reference| of each watched signal (over a fine uniform grid and the breakpoints).
+    pub peaks: Vec<f64>,
+    /// The circuit's poles at its start state (empty when they could not be computed).
+    pub poles: Vec<crate::poles::Pole>,
+}
+
+/// Builds the reference, the peaks and the poles once for all cells of `circuit`.
+pub fn prepare(circuit: &Circuit) -> Result<Prepared, AuditError> {
     let base = cell_settings(circuit, &Overrides::default());
     let reference = Reference::build(circuit, &base)?;
     let labels = reference.labels.clone();
@@ -171,19 +177,29 @@ pub fn run(
         .map(|v| v.iter().fold(0.0f64, |a, x| a.max(x.abs())))
         .map(|p| if p > 0.0 { p } else { 1.0 })
         .collect();
+    let poles = crate::poles::poles(circuit, &base).unwrap_or_default();
+    Ok(Prepared {
+        reference,
+        labels,
+        peaks,
+        poles,
+    })
+}
 
+/// Runs every cell of `plan` on `circuit`. `progress` is called once per finished cell with whether it
+/// failed (from worker threads).
+pub fn run(
+    circuit: &Circuit,
+    plan: &Plan,
+    options: &Options,
+    progress: &(dyn Fn(bool) + Sync),
+) -> Result<Audit, AuditError> {
+    plan.validate()?;
+    let prepared = prepare(circuit)?;
     let overrides = plan.overrides();
     let target = plan.target;
     let work = |o: &Overrides| -> CellResult {
-        let r = run_cell(
-            circuit,
-            o,
-            &reference,
-            &peaks,
-            &labels,
-            target,
-            options.cell_seconds,
-        );
+        let r = run_cell(circuit, &prepared, o, target, options.cell_seconds);
         progress(!r.ok());
         r
     };
@@ -203,6 +219,12 @@ pub fn run(
 
     let (recommendation, recommendation_reason) = recommend(&cells, target);
     let methods = summarize_methods(plan, &cells);
+    let Prepared {
+        reference,
+        labels,
+        peaks,
+        poles,
+    } = prepared;
     Ok(Audit {
         circuit: circuit.name.clone(),
         labels,
@@ -215,15 +237,15 @@ pub fn run(
         recommendation_reason,
         methods,
         threads: jobs,
+        poles,
     })
 }
 
-fn run_cell(
+/// Runs one cell and measures it against the prepared reference, with the detectors.
+pub fn run_cell(
     circuit: &Circuit,
+    prepared: &Prepared,
     o: &Overrides,
-    reference: &Reference,
-    peaks: &[f64],
-    labels: &[String],
     target: f64,
     cell_seconds: f64,
 ) -> CellResult {
@@ -244,8 +266,8 @@ fn run_cell(
         Ok(r) => r,
         Err(e) => return failed(e.to_string(), Stats::default()),
     };
-    let at_cell = reference.evaluate(&run.trajectory.times);
-    let errors = measure::signal_errors(&run.trajectory, &at_cell, peaks);
+    let at_cell = prepared.reference.evaluate(&run.trajectory.times);
+    let errors = measure::signal_errors(&run.trajectory, &at_cell, &prepared.peaks);
     let max_error = errors.iter().map(|e| e.max_error).fold(0.0f64, f64::max);
     if !max_error.is_finite() {
         return failed(
@@ -260,7 +282,7 @@ fn run_cell(
         settings,
         failure: None,
         max_error: Some(max_error),
-        signals: labels.iter().cloned().zip(errors).collect(),
+        signals: prepared.labels.iter().cloned().zip(errors).collect(),
         stats: run.stats,
         meets_target,
         flags,

@@ -356,3 +356,40 @@ pub fn audit(
         )))
     }
 }
+
+pub fn poles(file: &Path, json: Option<&Path>) -> Result<(), Failure> {
+    use ringtrue::units::engineering;
+    let c = load(file)?;
+    let mut settings = Settings::new(ringtrue::settings::MethodName::TrBdf2);
+    settings.apply(&c.run.settings);
+    let ps = ringtrue::poles::poles(&c, &settings)
+        .map_err(|e| Failure::BadInput(anyhow!("{}: {e}", c.file)))?;
+    println!(
+        "{}: {} poles at the {} state",
+        c.file,
+        ps.len(),
+        settings.start.as_str()
+    );
+    println!(
+        "{:>14} {:>14} {:>12} {:>8} {:>10} {:>12}",
+        "re (1/s)", "im (rad/s)", "freq (Hz)", "zeta", "Q", "tau (s)"
+    );
+    for p in &ps {
+        println!(
+            "{:>14.6e} {:>14.6e} {:>12} {:>8.4} {:>10} {:>12}",
+            p.re,
+            p.im,
+            engineering(p.frequency_hz()),
+            p.damping_ratio(),
+            p.q().map_or("inf".to_string(), |q| format!("{q:.4}")),
+            p.time_constant().map_or("inf".to_string(), engineering)
+        );
+    }
+    if let Some(j) = json {
+        let text = serde_json::to_string_pretty(&ringtrue::poles::poles_json(&ps))
+            .expect("JSON values serialize")
+            + "\n";
+        write_atomic(j, &text)?;
+    }
+    Ok(())
+}

@@ -62,6 +62,14 @@ enum Command {
         #[arg(long = "cell-seconds", default_value_t = 600.0)]
         cell_seconds: f64,
     },
+    /// List the circuit's natural frequencies (poles) at its start state.
+    Poles {
+        /// The circuit file (YAML).
+        file: PathBuf,
+        /// Also write them as JSON.
+        #[arg(long, value_name = "OUT.json")]
+        json: Option<PathBuf>,
+    },
     /// Evaluate the circuit's reference solution at uniform times or at another file's times.
     Reference {
         /// The circuit file (YAML).
@@ -196,6 +204,7 @@ pub fn run() -> i32 {
             plan.as_deref(),
             cell_seconds,
         ),
+        Command::Poles { file, json } => commands::poles(&file, json.as_deref()),
         Command::Reference {
             file,
             points,

@@ -58,59 +58,32 @@ fn linear_part(w: &Waveform, t: f64) -> f64 {
     }
 }
 
-/// One segment between breakpoints: its augmented generator and the augmented state at its start.
-#[derive(Debug, Clone)]
-struct Segment {
-    t0: f64,
-    t1: f64,
-    generator: DMatrix<f64>,
-    start: DVector<f64>,
+/// The index-1 split of C x' + G x = b: y1' = a y1 + bmat (dr .* b), with x = dc .* (v1 y1 + v2 y2)
+/// and y2 = g22^-1 (u2t (dr .* b) - g21 y1).
+pub struct Reduction {
+    pub r: usize,
+    pub dc: DVector<f64>,
+    pub dr: DVector<f64>,
+    pub v1: DMatrix<f64>,
+    pub v2: DMatrix<f64>,
+    pub u2t: DMatrix<f64>,
+    pub g21: DMatrix<f64>,
+    pub g22_lu: Option<nalgebra::LU<f64, nalgebra::Dyn, nalgebra::Dyn>>,
+    /// The dynamic part's matrix: its eigenvalues are the finite natural frequencies of C s + G.
+    pub a: DMatrix<f64>,
+    pub bmat: DMatrix<f64>,
 }
 
-/// The exact solution of one linear circuit.
-#[derive(Debug, Clone)]
-pub struct Exact {
-    sys: System,
-    r: usize,
-    /// x = dc .* (v1 y1 + v2 y2)
-    dc: DVector<f64>,
-    dr: DVector<f64>,
-    v1: DMatrix<f64>,
-    v2: DMatrix<f64>,
-    u2t: DMatrix<f64>,
-    g21: DMatrix<f64>,
-    g22_lu: Option<nalgebra::LU<f64, nalgebra::Dyn, nalgebra::Dyn>>,
-    sines: Vec<SinePart>,
-    segments: Vec<Segment>,
-    x0: Vec<f64>,
-    /// Largest disagreement between one exponential over a whole segment and two over its halves,
-    /// relative to the largest state magnitude: a measure of rounding in the exponentials.
-    pub rounding: f64,
-}
-
-impl Exact {
-    pub fn new(circuit: &Circuit, settings: &Settings) -> Result<Exact, ReferenceError> {
-        if !circuit.is_linear() {
-            return Err(ReferenceError::NotLinear {
-                elements: circuit
-                    .elements
-                    .iter()
-                    .filter(|e| !e.kind.is_linear())
-                    .map(|e| e.name.clone())
-                    .collect(),
-            });
-        }
-        let sys = System::new(circuit);
-        let n = sys.size();
-        let c = DMatrix::from_fn(n, n, |i, j| sys.c.get(i, j));
-        let g = DMatrix::from_fn(n, n, |i, j| sys.g.get(i, j));
+impl Reduction {
+    pub fn new(c: &DMatrix<f64>, g: &DMatrix<f64>) -> Result<Reduction, ReferenceError> {
+        let n = c.nrows();
 
         // Equilibrate rows and columns so that capacitances and inductances of any size compare fairly.
         let row_max =
             |m: &DMatrix<f64>, i: usize| m.row(i).iter().fold(0.0f64, |a, v| a.max(v.abs()));
         let dr = DVector::from_fn(n, |i, _| {
-            let mc = row_max(&c, i);
-            let m = if mc > 0.0 { mc } else { row_max(&g, i) };
+            let mc = row_max(c, i);
+            let m = if mc > 0.0 { mc } else { row_max(g, i) };
             if m > 0.0 {
                 1.0 / m
             } else {
@@ -177,6 +150,80 @@ impl Exact {
         // y1' = -Sigma^-1 a y1 + Sigma^-1 bmat b~(t)
         let a = DMatrix::from_fn(r, r, |i, j| -a[(i, j)] / sig[i]);
         let bmat = DMatrix::from_fn(r, n, |i, j| bmat[(i, j)] / sig[i]);
+
+        Ok(Reduction {
+            r,
+            dc,
+            dr,
+            v1,
+            v2,
+            u2t,
+            g21,
+            g22_lu,
+            a,
+            bmat,
+        })
+    }
+}
+
+/// One segment between breakpoints: its augmented generator and the augmented state at its start.
+#[derive(Debug, Clone)]
+struct Segment {
+    t0: f64,
+    t1: f64,
+    generator: DMatrix<f64>,
+    start: DVector<f64>,
+}
+
+/// The exact solution of one linear circuit.
+#[derive(Debug, Clone)]
+pub struct Exact {
+    sys: System,
+    r: usize,
+    /// x = dc .* (v1 y1 + v2 y2)
+    dc: DVector<f64>,
+    dr: DVector<f64>,
+    v1: DMatrix<f64>,
+    v2: DMatrix<f64>,
+    u2t: DMatrix<f64>,
+    g21: DMatrix<f64>,
+    g22_lu: Option<nalgebra::LU<f64, nalgebra::Dyn, nalgebra::Dyn>>,
+    sines: Vec<SinePart>,
+    segments: Vec<Segment>,
+    x0: Vec<f64>,
+    /// Largest disagreement between one exponential over a whole segment and two over its halves,
+    /// relative to the largest state magnitude: a measure of rounding in the exponentials.
+    pub rounding: f64,
+}
+
+impl Exact {
+    pub fn new(circuit: &Circuit, settings: &Settings) -> Result<Exact, ReferenceError> {
+        if !circuit.is_linear() {
+            return Err(ReferenceError::NotLinear {
+                elements: circuit
+                    .elements
+                    .iter()
+                    .filter(|e| !e.kind.is_linear())
+                    .map(|e| e.name.clone())
+                    .collect(),
+            });
+        }
+        let sys = System::new(circuit);
+        let n = sys.size();
+        let c = DMatrix::from_fn(n, n, |i, j| sys.c.get(i, j));
+        let g = DMatrix::from_fn(n, n, |i, j| sys.g.get(i, j));
+        let Reduction {
+            r,
+            dc,
+            dr,
+            v1,
+            v2,
+            u2t,
+            g21,
+            g22_lu,
+            a,
+            bmat,
+        } = Reduction::new(&c, &g)?;
 
         // Sources and their reduced input directions.
         let stamps: Vec<(Waveform, Vec<(usize, f64)>)> = sys
