@@ -1,6 +1,7 @@
 //! The integration tests, one module per concern. Each check of the engine against the outside world
 //! names its source beside it.
 
+mod audit;
 mod closed_form_library;
 mod closed_forms;
 mod common;
@@ -8,5 +9,6 @@ mod conservation;
 mod diode;
 mod order;
 mod reference_data;
+mod shipped;
 mod stability;
 mod validation;
