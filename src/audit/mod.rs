@@ -195,27 +195,30 @@ pub fn run(
     progress: &(dyn Fn(bool) + Sync),
 ) -> Result<Audit, AuditError> {
     plan.validate()?;
-    let prepared = prepare(circuit)?;
+    let jobs = options.jobs.max(1);
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(jobs)
+        .build()
+        .map_err(|e| AuditError::Threads {
+            jobs,
+            message: e.to_string(),
+        })?;
     let overrides = plan.overrides();
     let target = plan.target;
-    let work = |o: &Overrides| -> CellResult {
-        let r = run_cell(circuit, &prepared, o, target, options.cell_seconds);
-        progress(!r.ok());
-        r
-    };
-    let jobs = options.jobs.max(1);
-    let cells: Vec<CellResult> = if jobs == 1 {
-        overrides.iter().map(work).collect()
-    } else {
-        let pool = rayon::ThreadPoolBuilder::new()
-            .num_threads(jobs)
-            .build()
-            .map_err(|e| AuditError::Threads {
-                jobs,
-                message: e.to_string(),
-            })?;
-        pool.install(|| overrides.par_iter().map(work).collect())
-    };
+    // Everything, the reference included, runs on a pool of exactly `jobs` threads.
+    let (prepared, cells) =
+        pool.install(|| -> Result<(Prepared, Vec<CellResult>), AuditError> {
+            let prepared = prepare(circuit)?;
+            let cells = overrides
+                .par_iter()
+                .map(|o| {
+                    let r = run_cell(circuit, &prepared, o, target, options.cell_seconds);
+                    progress(!r.ok());
+                    r
+                })
+                .collect();
+            Ok((prepared, cells))
+        })?;
 
     let (recommendation, recommendation_reason) = recommend(&cells, target);
     let methods = summarize_methods(plan, &cells);
