@@ -8,6 +8,8 @@
 pub mod audit;
 pub mod catalogue;
 pub mod circuit;
+pub mod detect;
+pub mod diagnose;
 pub mod equations;
 pub mod integrate;
 pub mod output;
@@ -15,4 +17,5 @@ pub mod poles;
 pub mod reference;
 pub mod report;
 pub mod settings;
+pub mod signoff;
 pub mod units;

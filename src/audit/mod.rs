@@ -278,7 +278,7 @@ pub fn run_cell(
             run.stats,
         );
     }
-    let flags: Vec<Flag> = Vec::new();
+    let flags = detect_flags(&run.trajectory, &at_cell, prepared, target, settings.method);
     let meets_target = max_error <= target && !flags.iter().any(|f| f.kind.disqualifies());
     CellResult {
         overrides: *o,
@@ -291,6 +291,50 @@ pub fn run_cell(
         flags,
         trajectory: Some(run.trajectory),
     }
+}
+
+/// Every detector on every watched signal of a run.
+pub fn detect_flags(
+    run: &Trajectory,
+    reference: &[Vec<f64>],
+    prepared: &Prepared,
+    target: f64,
+    method: MethodName,
+) -> Vec<Flag> {
+    use crate::detect;
+    let mut flags = Vec::new();
+    for (k, label) in prepared.labels.iter().enumerate() {
+        let (t, v, r, peak) = (&run.times, &run.values[k], &reference[k], prepared.peaks[k]);
+        flags.extend(detect::numerical_ringing(
+            label,
+            t,
+            v,
+            Some(r),
+            peak,
+            target,
+            &prepared.poles,
+        ));
+        flags.extend(detect::artificial_damping(
+            label,
+            t,
+            v,
+            r,
+            peak,
+            target,
+            &prepared.poles,
+            method,
+        ));
+        flags.extend(detect::phase_error(
+            label,
+            t,
+            v,
+            r,
+            peak,
+            target,
+            &prepared.poles,
+        ));
+    }
+    flags
 }
 
 /// The passing cell with the least work: fewest Newton iterations, then fewest steps, then grid order

@@ -393,3 +393,118 @@ pub fn poles(file: &Path, json: Option<&Path>) -> Result<(), Failure> {
     }
     Ok(())
 }
+
+pub fn diagnose(
+    file: &Path,
+    signal: &str,
+    flags: &Overrides,
+    json: Option<&Path>,
+) -> Result<(), Failure> {
+    let c = load(file)?;
+    let mut o = *flags;
+    if o.method.is_none() {
+        o.method = c.run.settings.method;
+    }
+    if o.method.is_none() {
+        return Err(Failure::BadInput(anyhow!(
+            "no method given: pass --method or set run.method in {}",
+            c.file
+        )));
+    }
+    settings_for(&c, &o)?;
+    let d = ringtrue::diagnose::diagnose(&c, &o, signal).map_err(|e| match e {
+        ringtrue::diagnose::DiagnoseError::UnknownSignal { .. } => {
+            Failure::BadInput(anyhow!("{}: {e}", c.file))
+        }
+        other => Failure::NotMet(anyhow!("{}: {other}", c.file)),
+    })?;
+    print!("{}", ringtrue::diagnose::summary(&d));
+    if let Some(j) = json {
+        let text = serde_json::to_string_pretty(&ringtrue::diagnose::diagnosis_json(&d))
+            .expect("JSON values serialize")
+            + "\n";
+        write_atomic(j, &text)?;
+    }
+    Ok(())
+}
+
+pub fn inspect(wave: &Path, signal: &str, target: f64, json: Option<&Path>) -> Result<(), Failure> {
+    if !(target.is_finite() && target > 0.0 && target < 1.0) {
+        return Err(Failure::BadInput(anyhow!(
+            "--target must be between 0 and 1, e.g. 1e-3"
+        )));
+    }
+    let bad = |m: String| Failure::BadInput(anyhow!("{}: {m}", wave.display()));
+    let mut rdr = csv::ReaderBuilder::new()
+        .has_headers(true)
+        .from_path(wave)
+        .map_err(|e| bad(format!("cannot read: {e}")))?;
+    let headers: Vec<String> = rdr
+        .headers()
+        .map_err(|e| bad(e.to_string()))?
+        .iter()
+        .map(|h| h.trim().to_string())
+        .collect();
+    let col = headers
+        .iter()
+        .skip(1)
+        .position(|h| h == signal)
+        .map(|k| k + 1)
+        .ok_or_else(|| {
+            bad(format!(
+                "has no column '{signal}'; its columns are {}",
+                headers.join(", ")
+            ))
+        })?;
+    let (mut t, mut v) = (Vec::new(), Vec::new());
+    for (i, rec) in rdr.records().enumerate() {
+        let rec = rec.map_err(|e| bad(format!("row {}: {e}", i + 2)))?;
+        let parse = |k: usize| -> Result<f64, Failure> {
+            let f = rec.get(k).unwrap_or("").trim();
+            f.parse::<f64>()
+                .ok()
+                .filter(|x| x.is_finite())
+                .ok_or_else(|| {
+                    bad(format!(
+                        "line {}: '{f}' in column {} is not a finite number",
+                        i + 2,
+                        k + 1
+                    ))
+                })
+        };
+        let (ti, vi) = (parse(0)?, parse(col)?);
+        if let Some(&last) = t.last() {
+            if ti <= last {
+                return Err(bad(format!("line {}: time {ti} does not increase; the first column must be strictly increasing time", i + 2)));
+            }
+        }
+        t.push(ti);
+        v.push(vi);
+    }
+    let peak = v.iter().fold(0.0f64, |a, x| a.max(x.abs()));
+    let flags = if peak > 0.0 {
+        ringtrue::detect::numerical_ringing(signal, &t, &v, None, peak, target, &[])
+    } else {
+        Vec::new()
+    };
+    println!(
+        "{}: {} samples of {signal}; {} numerical-ringing flag(s)",
+        wave.display(),
+        t.len(),
+        flags.len()
+    );
+    for f in &flags {
+        println!(
+            "  from {:.6e} s to {:.6e} s, severity {:.2}",
+            f.t_start, f.t_end, f.severity
+        );
+    }
+    if let Some(j) = json {
+        let doc = serde_json::json!({ "flags": flags.iter().map(ringtrue::audit::results::flag_json).collect::<Vec<_>>() });
+        write_atomic(
+            j,
+            &(serde_json::to_string_pretty(&doc).expect("JSON values serialize") + "\n"),
+        )?;
+    }
+    Ok(())
+}

@@ -4,6 +4,7 @@
 
 mod commands;
 mod progress;
+mod signoff;
 
 use clap::{Args, Parser, Subcommand};
 use ringtrue::settings::{MethodName, Overrides, Restart, Scale, Start};
@@ -62,6 +63,35 @@ enum Command {
         #[arg(long = "cell-seconds", default_value_t = 600.0)]
         cell_seconds: f64,
     },
+    /// Decide whether a ringing signal is the circuit's or the integrator's: rerun the setting with its
+    /// step limit halved and quartered and with an L-stable method, and compare.
+    Diagnose {
+        /// The circuit file (YAML).
+        file: PathBuf,
+        /// The watched signal to examine (a node, or NAME.current).
+        #[arg(long)]
+        signal: String,
+        #[command(flatten)]
+        settings: SettingFlags,
+        /// Also write the verdict and evidence as JSON.
+        #[arg(long, value_name = "OUT.json")]
+        json: Option<PathBuf>,
+    },
+    /// Look for step-to-step oscillation in a waveform exported as CSV (time column, then signals; the
+    /// rows being the producing program's own steps).
+    Inspect {
+        /// The waveform CSV (header row; the first column is time in seconds).
+        wave: PathBuf,
+        /// The column to examine.
+        #[arg(long)]
+        signal: String,
+        /// Amplitudes below a quarter of this fraction of the signal's peak are not flagged.
+        #[arg(long, value_parser = plain_value, default_value = "1e-3")]
+        target: f64,
+        /// Also write the flags as JSON.
+        #[arg(long, value_name = "OUT.json")]
+        json: Option<PathBuf>,
+    },
     /// List the circuit's natural frequencies (poles) at its start state.
     Poles {
         /// The circuit file (YAML).
@@ -86,6 +116,22 @@ enum Command {
         /// How the run starts: operating_point or initial_conditions (default: the file's run.start).
         #[arg(long, value_parser = named::<Start>)]
         start: Option<Start>,
+    },
+    /// Run one setting on every circuit of a project against its reference and write a sign-off
+    /// record (signoff.json, signoff.html); or check a record against the files with --verify.
+    Signoff {
+        /// The project file (YAML: project, settings, target, circuits).
+        #[arg(required_unless_present = "verify", conflicts_with = "verify")]
+        project: Option<PathBuf>,
+        /// Check that the files a signoff.json names are unchanged, instead of running.
+        #[arg(long, value_name = "SIGNOFF.json", conflicts_with_all = ["out", "jobs"])]
+        verify: Option<PathBuf>,
+        /// Where to write signoff.json and signoff.html (default: reports/<project>).
+        #[arg(long, value_name = "DIR")]
+        out: Option<PathBuf>,
+        /// Worker threads (default: every core).
+        #[arg(long, value_parser = clap::value_parser!(u32).range(1..=1024))]
+        jobs: Option<u32>,
     },
 }
 
@@ -204,6 +250,18 @@ pub fn run() -> i32 {
             plan.as_deref(),
             cell_seconds,
         ),
+        Command::Diagnose {
+            file,
+            signal,
+            settings,
+            json,
+        } => commands::diagnose(&file, &signal, &settings.overrides(), json.as_deref()),
+        Command::Inspect {
+            wave,
+            signal,
+            target,
+            json,
+        } => commands::inspect(&wave, &signal, target, json.as_deref()),
         Command::Poles { file, json } => commands::poles(&file, json.as_deref()),
         Command::Reference {
             file,
@@ -212,6 +270,12 @@ pub fn run() -> i32 {
             csv,
             start,
         } => commands::reference(&file, points, at.as_deref(), &csv, start),
+        Command::Signoff {
+            project,
+            verify,
+            out,
+            jobs,
+        } => signoff::signoff(project.as_deref(), verify.as_deref(), out.as_deref(), jobs),
     };
     match result {
         Ok(()) => 0,

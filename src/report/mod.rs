@@ -1,4 +1,9 @@
-//! The audit report as one self-contained HTML page.
+//! The audit report as one self-contained HTML page: `model` takes plain data from the audit,
+//! `render` writes the page and `plots` draws the inline SVG figures.
+
+pub mod model;
+pub mod plots;
+pub mod render;
 
 use crate::audit::results::Provenance;
 use crate::audit::Audit;
@@ -20,31 +25,7 @@ pub fn escape(s: &str) -> String {
     out
 }
 
-/// A minimal table of the cells.
+/// The audit report: one self-contained page (inline CSS and SVG, no scripts, no external files).
 pub fn render(a: &Audit, c: &Circuit, p: &Provenance) -> String {
-    let mut h = String::new();
-    h.push_str("<!DOCTYPE html><html><head><meta charset=\"utf-8\"><title>");
-    h.push_str(&escape(&c.title));
-    h.push_str("</title></head><body><h1>");
-    h.push_str(&escape(&c.title));
-    h.push_str("</h1><p>");
-    h.push_str(&escape(&a.recommendation_reason));
-    h.push_str("</p><table><tr><th>method</th><th>rtol</th><th>max error</th><th>steps</th><th>meets target</th></tr>");
-    for cell in &a.cells {
-        h.push_str(&format!(
-            "<tr><td>{}</td><td>{:e}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
-            cell.settings.method.as_str(),
-            cell.settings.tolerances.rtol,
-            cell.max_error
-                .map_or("failed".to_string(), |e| format!("{e:.3e}")),
-            cell.stats.steps,
-            cell.meets_target
-        ));
-    }
-    h.push_str(&format!(
-        "</table><p>{} sha256 {}</p></body></html>\n",
-        escape(p.file),
-        p.sha256
-    ));
-    h
+    render::page(&model::build(a, c, p))
 }
