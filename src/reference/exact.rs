@@ -277,6 +277,7 @@ impl Exact {
         let dim = r + 2 * m + 2;
         let mut segments = Vec::with_capacity(times.len());
         let mut rounding: f64 = 0.0;
+        let mut products = 0usize;
         for w in times.windows(2) {
             let (t0, t1) = (w[0], w[1]);
             if t1 <= t0 {
@@ -315,24 +316,54 @@ impl Exact {
             gen.view_mut((0, dim - 1), (r, 1)).copy_from(&f0);
             gen[(dim - 2, dim - 1)] = 1.0;
             start[dim - 1] = 1.0;
-            let full = (&gen * (t1 - t0)).exp() * &start;
-            let half = (&gen * (0.5 * (t1 - t0))).exp();
-            let halves = &half * (&half * &start);
-            let scale = full
+            // Long segments are walked in sub-intervals short enough that each exponential needs few
+            // squarings (|gen| dt <= 64): one exponential of a stiff generator over a long interval
+            // loses accuracy in its squaring phase. The same walk at half the sub-interval estimates
+            // the rounding left; one exponential over the whole segment, which squares the most, gives
+            // a second, more pessimistic comparison, and the bound is the larger of the two.
+            let norm = (0..dim)
+                .map(|j| gen.column(j).iter().map(|v| v.abs()).sum::<f64>())
+                .fold(0.0f64, f64::max);
+            let span = t1 - t0;
+            let pieces = ((norm * span / 64.0).ceil() as usize).clamp(1, 16384);
+            let dt = span / pieces as f64;
+            let step = (&gen * dt).exp();
+            let half = (&gen * (0.5 * dt)).exp();
+            let step2 = &half * &half;
+            let mut xi = start.clone();
+            let mut xi2 = start.clone();
+            for j in 0..pieces {
+                let a0 = if j == 0 { t0 } else { t0 + j as f64 * dt };
+                let a1 = if j + 1 == pieces {
+                    t1
+                } else {
+                    t0 + (j + 1) as f64 * dt
+                };
+                segments.push(Segment {
+                    t0: a0,
+                    t1: a1,
+                    generator: gen.clone(),
+                    start: xi.clone(),
+                });
+                xi = &step * xi;
+                xi2 = &step2 * xi2;
+            }
+            let scale = xi
                 .rows(0, r)
                 .amax()
                 .max(start.rows(0, r).amax())
                 .max(1e-300);
+            let whole = (&gen * span).exp() * &start;
+            // Every product of the walk adds a few rounding errors: an a priori bound for the chain
+            // (standard forward error accumulation, 4 eps per product).
+            products += pieces;
+            rounding = rounding.max(products as f64 * 4.0 * f64::EPSILON);
             if r > 0 {
-                rounding = rounding.max((full.rows(0, r) - halves.rows(0, r)).amax() / scale);
+                let d1 = (xi.rows(0, r) - xi2.rows(0, r)).amax();
+                let d2 = (xi.rows(0, r) - whole.rows(0, r)).amax();
+                rounding = rounding.max(d1.max(d2) / scale);
             }
-            segments.push(Segment {
-                t0,
-                t1,
-                generator: gen,
-                start,
-            });
-            y1 = full.rows(0, r).into_owned();
+            y1 = xi.rows(0, r).into_owned();
             let _ = stop;
         }
         Ok(Exact {

@@ -97,8 +97,8 @@ impl Reference {
                 let e = exact::Exact::new(circuit, settings)?;
                 Ok(Reference {
                     kind: ReferenceKind::Exact,
-                    // rounding in the exponentials, never claimed below a few units of double precision
-                    error_bound: (10.0 * e.rounding).max(1e-13),
+                    // rounding in the exponentials (see Exact::rounding), never claimed below 1e-13
+                    error_bound: e.rounding.max(1e-13),
                     labels: e.labels(),
                     warning: None,
                     evaluator: Evaluator::Exact(Box::new(e)),

@@ -269,7 +269,9 @@ fn orders(name: &str) -> Vec<(MethodName, f64)> {
 #[test]
 fn observed_orders_on_series_rlc_underdamped_and_critical() {
     for name in ["gate-drive-rlc", "snubber-rlc-critical"] {
-        for (m, o) in orders(name) {
+        let all = orders(name);
+        eprintln!("measured: {name} observed orders {all:?}");
+        for (m, o) in all {
             let p = ringtrue::integrate::methods::info(m).order as f64;
             assert!(
                 (o - p).abs() <= 0.3,

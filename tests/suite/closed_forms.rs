@@ -20,6 +20,10 @@ fn check_all(text: &str, signal: &str, peak: f64, exact: impl Fn(f64) -> f64 + C
     for m in MethodName::ALL {
         let r = run(&c, m, |s| s.tolerances.rtol = 1e-6);
         let e = max_error(&r, signal, exact) / peak;
+        eprintln!(
+            "measured: {signal} {} max error {e:.3e} of peak",
+            m.as_str()
+        );
         assert!(
             e <= bound(m),
             "{}: error {e:e} of peak on {signal}",

@@ -35,6 +35,14 @@ fn trapezoidal_keeps_lc_energy_with_irregular_steps() {
         hmax / hmin > 10.0,
         "the step sequence must be irregular: {hmin:e}..{hmax:e}"
     );
+    let worst = (0..v.len())
+        .map(|k| (energy(k) - e0).abs() / e0)
+        .fold(0.0f64, f64::max);
+    eprintln!(
+        "measured: {} steps, step ratio {:.1}, worst relative energy change {worst:.2e}",
+        v.len() - 1,
+        hmax / hmin
+    );
     for k in 0..v.len() {
         let rel = (energy(k) - e0).abs() / e0;
         assert!(

@@ -67,6 +67,10 @@ fn check(v: f64, r: f64, is: f64, n: f64) {
     let nvt = n * 1.380_649e-23 * 300.0 / 1.602_176_634e-19;
     let ln_arg = (is * r / nvt).ln() + (v + is * r) / nvt;
     let want = nvt / r * lambert_w_of_exp(ln_arg) - is;
+    eprintln!(
+        "measured: V = {v}, R = {r}: relative error {:.2e}",
+        ((got - want) / want).abs()
+    );
     assert!(
         ((got - want) / want).abs() <= 1e-9,
         "V = {v}, R = {r}: current {got:e} vs Lambert-W {want:e}"

@@ -41,6 +41,7 @@ fn fixed_step_orders_match_theory() {
         (MethodName::TrBdf2, 2.0),
     ] {
         let orders = observed_orders(m, 0.02);
+        eprintln!("measured: {} fixed-step orders {orders:?}", m.as_str());
         for o in &orders {
             assert!(
                 (o - p).abs() <= 0.2,

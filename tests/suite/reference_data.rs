@@ -64,6 +64,10 @@ fn compare(name: &str) -> (f64, Reference) {
             / peak;
         worst = worst.max(e);
     }
+    eprintln!(
+        "measured: {name}: max |reference - data| / peak = {worst:.2e}, claimed bound {:.2e}",
+        r.error_bound
+    );
     (worst, r)
 }
 
