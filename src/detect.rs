@@ -168,7 +168,6 @@ pub fn stability_function(method: MethodName, zr: f64, zi: f64) -> (f64, f64) {
         ((a.0 * b.0 + a.1 * b.1) / d, (a.1 * b.0 - a.0 * b.1) / d)
     };
     let mul = |a: (f64, f64), b: (f64, f64)| (a.0 * b.0 - a.1 * b.1, a.0 * b.1 + a.1 * b.0);
-    let z = (zr, zi);
     match method {
         MethodName::BackwardEuler => div((1.0, 0.0), (1.0 - zr, -zi)),
         MethodName::Trapezoidal => div((1.0 + zr / 2.0, zi / 2.0), (1.0 - zr / 2.0, -zi / 2.0)),
@@ -199,7 +198,6 @@ pub fn stability_function(method: MethodName, zr: f64, zi: f64) -> (f64, f64) {
             let ez = mul((zr.exp(), 0.0), (zi.cos(), zi.sin()));
             let d1 = (r1.0 - ez.0).hypot(r1.1 - ez.1);
             let d2 = (r2.0 - ez.0).hypot(r2.1 - ez.1);
-            let _ = z;
             if d1 <= d2 {
                 r1
             } else {

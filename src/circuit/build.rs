@@ -117,7 +117,7 @@ pub(super) fn build(raw: RawCircuit, text: &str, file: &str) -> Result<Circuit, 
             );
             continue;
         }
-        if let Some(kind) = build_element(&mut cx, re, line, &subject, &ground) {
+        if let Some(kind) = build_element(&mut cx, re, line, &subject) {
             elements.push(Element {
                 name: re.name.clone(),
                 line,
@@ -503,7 +503,6 @@ fn build_element(
     re: &RawElement,
     line: Option<usize>,
     subject: &Option<String>,
-    ground: &str,
 ) -> Option<ElementKind> {
     let Some(allowed) = allowed_fields(&re.kind) else {
         cx.push(
@@ -562,7 +561,6 @@ fn build_element(
             }
         }
     };
-    let _ = ground;
     let positive = |cx: &mut Ctx,
                     v: &Option<RawValue>,
                     field: &str,

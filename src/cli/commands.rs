@@ -2,7 +2,7 @@
 
 use super::Failure;
 use anyhow::anyhow;
-use ringtrue::circuit::{self, Circuit, ElementKind};
+use ringtrue::circuit::{self, Circuit};
 use ringtrue::equations::System;
 use ringtrue::integrate;
 use ringtrue::output;
@@ -78,7 +78,6 @@ pub fn check(file: &Path) -> Result<(), Failure> {
     println!("  start:       {}", c.run.start.as_str());
     let watch: Vec<String> = c.watch.iter().map(|p| p.label()).collect();
     println!("  watch:       {}", watch.join(", "));
-    let _ = ElementKind::kind_name;
     Ok(())
 }
 

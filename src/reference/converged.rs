@@ -81,7 +81,7 @@ impl Converged {
         let mut previous = run(rtol)?;
         let mut diffs: Vec<f64> = Vec::new();
         let mut warning = None;
-        let (finest, last_diff, worst) = loop {
+        let (finest, last_diff) = loop {
             rung += 1;
             rtol = FIRST_RTOL * 10f64.powi(-rung);
             let next = run(rtol)?;
@@ -105,7 +105,7 @@ impl Converged {
                         rtol,
                         next.labels.get(worst).cloned().unwrap_or_default()
                     ));
-                    break (previous, d.max(p), worst);
+                    break (previous, d.max(p));
                 }
                 if d > ROUNDING_FLOOR && d > 0.7 * p && warning.is_none() {
                     warning = Some(format!(
@@ -115,11 +115,10 @@ impl Converged {
                 }
             }
             if d <= TARGET || rtol <= LAST_RTOL * 1.0001 {
-                break (next, d, worst);
+                break (next, d);
             }
             previous = next;
         };
-        let _ = worst;
         let peaks = signal_peaks(&finest);
         let interpolation_error = interpolation_estimate(&finest, &breakpoints, &peaks);
         Ok(Converged {

@@ -270,7 +270,6 @@ impl Exact {
         let xt0 = DVector::from_fn(n, |i, _| x0[i] / dc[i]);
         let mut y1 = v1.transpose() * xt0;
 
-        let stop = circuit.run.stop;
         let mut times = vec![0.0];
         times.extend(circuit.breakpoints());
         let m = sines.len();
@@ -364,7 +363,6 @@ impl Exact {
                 rounding = rounding.max(d1.max(d2) / scale);
             }
             y1 = xi.rows(0, r).into_owned();
-            let _ = stop;
         }
         Ok(Exact {
             sys,

@@ -71,7 +71,10 @@ fn exact_agrees_with_every_shipped_closed_form() {
                 .zip(&b[k])
                 .fold(0.0f64, |m, (x, y)| m.max((x - y).abs()))
                 / peak;
-            eprintln!("measured: {}: {label} exact vs closed form {e:.2e}", f.display());
+            eprintln!(
+                "measured: {}: {label} exact vs closed form {e:.2e}",
+                f.display()
+            );
             assert!(
                 e <= 1e-10,
                 "{}: {label}: exact vs closed form differ by {e:e} of the peak",
