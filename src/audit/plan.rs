@@ -59,18 +59,24 @@ fn err(field: &'static str, message: impl Into<String>) -> PlanError {
     }
 }
 
-fn values(
-    field: &'static str,
-    list: &Option<Vec<RawValue>>,
-    q: Quantity,
-) -> Result<Option<Vec<f64>>, PlanError> {
-    let Some(list) = list else { return Ok(None) };
+/// Refuses an empty list: the grid would have no cells.
+fn nonempty<T>(field: &'static str, list: &[T]) -> Result<(), PlanError> {
     if list.is_empty() {
         return Err(err(
             field,
             "the list is empty; give at least one value or remove the key",
         ));
     }
+    Ok(())
+}
+
+fn values(
+    field: &'static str,
+    list: &Option<Vec<RawValue>>,
+    q: Quantity,
+) -> Result<Option<Vec<f64>>, PlanError> {
+    let Some(list) = list else { return Ok(None) };
+    nonempty(field, list)?;
     list.iter()
         .map(|v| match v {
             RawValue::Number(x) if x.is_finite() => Ok(*x),
@@ -86,12 +92,7 @@ fn names<T: std::str::FromStr<Err = crate::settings::UnknownName>>(
     list: &Option<Vec<String>>,
 ) -> Result<Option<Vec<T>>, PlanError> {
     let Some(list) = list else { return Ok(None) };
-    if list.is_empty() {
-        return Err(err(
-            field,
-            "the list is empty; give at least one value or remove the key",
-        ));
-    }
+    nonempty(field, list)?;
     list.iter()
         .map(|s| s.parse::<T>().map_err(|e| err(field, e.to_string())))
         .collect::<Result<Vec<_>, _>>()
@@ -112,13 +113,10 @@ impl Plan {
         let methods = names::<MethodName>("methods", &raw.methods)?.unwrap_or(d.methods);
         let rtol = values("rtol", &raw.rtol, Quantity::Plain)?.unwrap_or(d.rtol);
         let step_budget = match &raw.step_budget {
-            Some(l) if l.is_empty() => {
-                return Err(err(
-                    "step_budget",
-                    "the list is empty; give at least one value or remove the key",
-                ))
+            Some(l) => {
+                nonempty("step_budget", l)?;
+                l.iter().map(|&b| Some(b)).collect()
             }
-            Some(l) => l.iter().map(|&b| Some(b)).collect(),
             None => vec![None],
         };
         let target = match &raw.target {

@@ -60,6 +60,7 @@ fn linear_part(w: &Waveform, t: f64) -> f64 {
 
 /// The index-1 split of C x' + G x = b: y1' = a y1 + bmat (dr .* b), with x = dc .* (v1 y1 + v2 y2)
 /// and y2 = g22^-1 (u2t (dr .* b) - g21 y1).
+#[derive(Debug, Clone)]
 pub struct Reduction {
     pub r: usize,
     pub dc: DVector<f64>,
@@ -179,20 +180,13 @@ struct Segment {
 #[derive(Debug, Clone)]
 pub struct Exact {
     sys: System,
-    r: usize,
-    /// x = dc .* (v1 y1 + v2 y2)
-    dc: DVector<f64>,
-    dr: DVector<f64>,
-    v1: DMatrix<f64>,
-    v2: DMatrix<f64>,
-    u2t: DMatrix<f64>,
-    g21: DMatrix<f64>,
-    g22_lu: Option<nalgebra::LU<f64, nalgebra::Dyn, nalgebra::Dyn>>,
+    red: Reduction,
     sines: Vec<SinePart>,
     segments: Vec<Segment>,
     x0: Vec<f64>,
-    /// Largest disagreement between one exponential over a whole segment and two over its halves,
-    /// relative to the largest state magnitude: a measure of rounding in the exponentials.
+    /// The rounding left in the walk, relative to the largest state magnitude: the largest of the
+    /// disagreement with the same walk at half the sub-interval, with one exponential over the whole
+    /// segment, and the a priori accumulation over every product.
     pub rounding: f64,
 }
 
@@ -212,18 +206,16 @@ impl Exact {
         let n = sys.size();
         let c = DMatrix::from_fn(n, n, |i, j| sys.c.get(i, j));
         let g = DMatrix::from_fn(n, n, |i, j| sys.g.get(i, j));
+        let red = Reduction::new(&c, &g)?;
         let Reduction {
             r,
-            dc,
-            dr,
-            v1,
-            v2,
-            u2t,
-            g21,
-            g22_lu,
-            a,
-            bmat,
-        } = Reduction::new(&c, &g)?;
+            ref dc,
+            ref dr,
+            ref v1,
+            ref a,
+            ref bmat,
+            ..
+        } = red;
 
         // Sources and their reduced input directions.
         let stamps: Vec<(Waveform, Vec<(usize, f64)>)> = sys
@@ -237,7 +229,7 @@ impl Exact {
                 for &(row, sign) in rows {
                     bt[row] += sign * dr[row];
                 }
-                &bmat * bt
+                bmat * bt
             })
             .collect();
         let sines: Vec<SinePart> = stamps
@@ -294,7 +286,7 @@ impl Exact {
                 f1 += &beta[k] * slope;
             }
             let mut gen = DMatrix::zeros(dim, dim);
-            gen.view_mut((0, 0), (r, r)).copy_from(&a);
+            gen.view_mut((0, 0), (r, r)).copy_from(a);
             let mut start = DVector::zeros(dim);
             start.rows_mut(0, r).copy_from(&y1);
             for (j, s) in sines.iter().enumerate() {
@@ -366,14 +358,7 @@ impl Exact {
         }
         Ok(Exact {
             sys,
-            r,
-            dc,
-            dr,
-            v1,
-            v2,
-            u2t,
-            g21,
-            g22_lu,
+            red,
             sines,
             segments,
             x0,
@@ -393,18 +378,19 @@ impl Exact {
         let seg = &self.segments[k];
         let dt = (t - seg.t0).min(seg.t1 - seg.t0).max(0.0);
         let xi = (&seg.generator * dt).exp() * &seg.start;
-        let y1 = xi.rows(0, self.r).into_owned();
+        let red = &self.red;
+        let y1 = xi.rows(0, red.r).into_owned();
         let n = self.sys.size();
         let mut b = vec![0.0; n];
         self.sys.sources_into(t, 1.0, &mut b);
-        let bt = DVector::from_fn(n, |i, _| b[i] * self.dr[i]);
-        let mut xt = &self.v1 * &y1;
-        if let Some(lu) = &self.g22_lu {
-            let rhs = &self.u2t * bt - &self.g21 * &y1;
+        let bt = DVector::from_fn(n, |i, _| b[i] * red.dr[i]);
+        let mut xt = &red.v1 * &y1;
+        if let Some(lu) = &red.g22_lu {
+            let rhs = &red.u2t * bt - &red.g21 * &y1;
             let y2 = lu.solve(&rhs).expect("checked invertible");
-            xt += &self.v2 * y2;
+            xt += &red.v2 * y2;
         }
-        (0..n).map(|i| xt[i] * self.dc[i]).collect()
+        (0..n).map(|i| xt[i] * red.dc[i]).collect()
     }
 
     /// The watched signals at each of `times` (each time independently, in parallel on the current
