@@ -17,9 +17,9 @@
 
 use crate::audit::{self, results, CellResult, Plan};
 use crate::circuit::raw::RawValue;
-use crate::circuit::{self, yaml, Circuit, ElementKind, Probe};
+use crate::circuit::{self, yaml, Circuit, Probe};
 use crate::settings::{MethodName, Overrides, Restart, Scale, Settings};
-use crate::units::{parse_value, Quantity};
+use crate::units::Quantity;
 use rayon::prelude::*;
 use serde::de::{self, Deserializer, MapAccess, Visitor};
 use serde::Deserialize;
@@ -189,11 +189,7 @@ fn at(file: &str, line: Option<usize>) -> String {
 }
 
 fn raw_number(v: &RawValue, q: Quantity) -> Result<f64, String> {
-    match v {
-        RawValue::Number(x) if x.is_finite() => Ok(*x),
-        RawValue::Number(x) => Err(format!("{x} is not finite")),
-        RawValue::Text(s) => parse_value(s, q).map_err(|e| e.to_string()),
-    }
+    v.number(q)
 }
 
 fn check_target(v: &RawValue) -> Result<f64, String> {
@@ -281,62 +277,17 @@ fn settings_overrides(
     o
 }
 
-/// The probes of a watch list given in the project, checked against the circuit.
+/// The probes of a watch list given in the project, checked against the circuit (the same rules as a
+/// circuit file's own `watch`).
 fn watch_probes(c: &Circuit, list: &[String]) -> Result<Vec<Probe>, Vec<String>> {
-    if list.is_empty() {
-        return Err(vec![
-            "the watch list is empty; list node names or NAME.current, or remove watch to keep the circuit's own"
-                .into(),
-        ]);
-    }
-    let nodes = c.nodes();
-    let mut out: Vec<Probe> = Vec::new();
-    let mut problems = Vec::new();
-    for w in list {
-        let probe = if let Some(el) = w.strip_suffix(".current") {
-            match c.element(el) {
-                Some(e) if matches!(e.kind, ElementKind::Coupling { .. }) => {
-                    problems.push(format!(
-                        "watch {w}: '{el}' is a coupling, which carries no current; watch the current of one of its inductors"
-                    ));
-                    continue;
-                }
-                Some(_) => Probe::Current(el.to_string()),
-                None => {
-                    problems.push(format!(
-                        "watch {w}: there is no element '{el}'; watch NAME.current of an element of this circuit"
-                    ));
-                    continue;
-                }
-            }
-        } else if *w == c.ground {
-            problems.push(format!(
-                "watch {w}: ground is 0 V by definition; watch another node"
-            ));
-            continue;
-        } else if nodes.contains(w) {
-            Probe::Node(w.clone())
-        } else {
-            let hint = if c.element(w).is_some() {
-                format!("to watch the current of element {w}, write {w}.current")
-            } else {
-                format!("watch one of its nodes ({})", nodes.join(", "))
-            };
-            problems.push(format!(
-                "watch {w}: '{w}' is not a node of this circuit; {hint}"
-            ));
-            continue;
-        };
-        if out.contains(&probe) {
-            problems.push(format!("watch {w}: is listed twice; list each signal once"));
-            continue;
-        }
-        out.push(probe);
-    }
+    let (probes, problems) = crate::circuit::resolve_watch(list, &c.elements, &c.ground);
     if problems.is_empty() {
-        Ok(out)
+        Ok(probes)
     } else {
-        Err(problems)
+        Err(problems
+            .into_iter()
+            .map(|p| format!("{}: {}; {}", p.subject, p.message, p.hint))
+            .collect())
     }
 }
 

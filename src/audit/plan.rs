@@ -3,7 +3,7 @@
 
 use crate::circuit::raw::{RawPlan, RawValue};
 use crate::settings::{MethodName, Overrides, Restart, Scale, Settings};
-use crate::units::{parse_value, Quantity};
+use crate::units::Quantity;
 
 /// The accuracy target when the plan sets none: max error / peak of each watched signal.
 pub const DEFAULT_TARGET: f64 = 1e-3;
@@ -78,11 +78,7 @@ fn values(
     let Some(list) = list else { return Ok(None) };
     nonempty(field, list)?;
     list.iter()
-        .map(|v| match v {
-            RawValue::Number(x) if x.is_finite() => Ok(*x),
-            RawValue::Number(x) => Err(err(field, format!("{x} is not finite"))),
-            RawValue::Text(s) => parse_value(s, q).map_err(|e| err(field, e.to_string())),
-        })
+        .map(|v| v.number(q).map_err(|e| err(field, e)))
         .collect::<Result<Vec<_>, _>>()
         .map(Some)
 }
@@ -121,10 +117,7 @@ impl Plan {
         };
         let target = match &raw.target {
             None => d.target,
-            Some(RawValue::Number(x)) => *x,
-            Some(RawValue::Text(s)) => {
-                parse_value(s, Quantity::Plain).map_err(|e| err("target", e.to_string()))?
-            }
+            Some(v) => v.number(Quantity::Plain).map_err(|e| err("target", e))?,
         };
         let plan = Plan {
             methods,

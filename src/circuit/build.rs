@@ -218,7 +218,7 @@ pub(super) fn build(raw: RawCircuit, text: &str, file: &str) -> Result<Circuit, 
         }
     }
 
-    let watch = build_watch(&mut cx, &raw, &elements, &circuit_nodes, &ground);
+    let watch = build_watch(&mut cx, &raw, &elements, &ground);
     let reference = match &raw.reference {
         None => ReferenceSpec::Default,
         Some(RawReference::Named(s)) if s == "exact" => ReferenceSpec::Exact,
@@ -340,13 +340,7 @@ fn build_run(cx: &mut Ctx, raw: &RawCircuit) -> RunSpec {
     }
 }
 
-fn build_watch(
-    cx: &mut Ctx,
-    raw: &RawCircuit,
-    elements: &[Element],
-    nodes: &HashSet<String>,
-    ground: &str,
-) -> Vec<Probe> {
+fn build_watch(cx: &mut Ctx, raw: &RawCircuit, elements: &[Element], ground: &str) -> Vec<Probe> {
     let line = find_line(cx.text, "watch:");
     let Some(list) = &raw.watch else {
         // Default: every node, in order of first appearance.
@@ -363,13 +357,49 @@ fn build_watch(
         }
         return out;
     };
+    let (probes, problems) = resolve_watch(list, elements, ground);
+    for p in problems {
+        cx.push(line, Some(p.subject), p.message, &p.hint);
+    }
+    probes
+}
+
+/// One watch entry that cannot be used.
+#[derive(Debug, Clone, PartialEq)]
+pub struct WatchProblem {
+    pub subject: String,
+    pub message: String,
+    pub hint: String,
+}
+
+/// Resolves a watch list against the circuit's elements: node names and `NAME.current`. Shared by the
+/// circuit file and by projects that override a circuit's watch list.
+pub fn resolve_watch(
+    list: &[String],
+    elements: &[Element],
+    ground: &str,
+) -> (Vec<Probe>, Vec<WatchProblem>) {
+    let mut nodes: Vec<&str> = Vec::new();
+    for n in elements.iter().filter_map(|e| e.kind.terminals()).flatten() {
+        if n != ground && !nodes.contains(&n.as_str()) {
+            nodes.push(n);
+        }
+    }
+    let mut problems = Vec::new();
+    let mut problem = |w: &str, message: String, hint: String| {
+        problems.push(WatchProblem {
+            subject: format!("watch {w}"),
+            message,
+            hint,
+        })
+    };
     if list.is_empty() {
-        cx.push(
-            line,
-            Some("watch".into()),
-            "the watch list is empty".into(),
-            "list node names or NAME.current, or remove `watch` to watch every node",
-        );
+        problems.push(WatchProblem {
+            subject: "watch".into(),
+            message: "the watch list is empty".into(),
+            hint: "list node names or NAME.current, or remove `watch` to watch every node".into(),
+        });
+        return (Vec::new(), problems);
     }
     let mut out = Vec::new();
     for w in list {
@@ -379,61 +409,51 @@ fn build_watch(
                     kind: ElementKind::Coupling { .. },
                     ..
                 }) => {
-                    cx.push(
-                        line,
-                        Some(format!("watch {w}")),
+                    problem(
+                        w,
                         format!("'{el}' is a coupling, which carries no current"),
-                        "watch the current of one of its inductors",
+                        "watch the current of one of its inductors".into(),
                     );
                     continue;
                 }
                 Some(_) => Probe::Current(el.to_string()),
                 None => {
-                    cx.push(
-                        line,
-                        Some(format!("watch {w}")),
+                    problem(
+                        w,
                         format!("there is no element '{el}'"),
-                        "watch NAME.current of an element of this circuit",
+                        "watch NAME.current of an element of this circuit".into(),
                     );
                     continue;
                 }
             }
-        } else if nodes.contains(w.as_str()) && w != ground {
-            Probe::Node(w.clone())
         } else if w == ground {
-            cx.push(
-                line,
-                Some(format!("watch {w}")),
+            problem(
+                w,
                 "ground is 0 V by definition".into(),
-                "watch another node",
+                "watch another node".into(),
             );
             continue;
+        } else if nodes.contains(&w.as_str()) {
+            Probe::Node(w.clone())
         } else {
             let hint = if elements.iter().any(|e| &e.name == w) {
                 format!("to watch the current of element {w}, write {w}.current")
             } else {
-                "watch a node that an element connects to, or NAME.current".to_string()
+                format!(
+                    "watch a node that an element connects to ({}), or NAME.current",
+                    nodes.join(", ")
+                )
             };
-            cx.push(
-                line,
-                Some(format!("watch {w}")),
-                format!("'{w}' is not a node of this circuit"),
-                &hint,
-            );
+            problem(w, format!("'{w}' is not a node of this circuit"), hint);
             continue;
         };
         if out.contains(&probe) {
-            cx.push(
-                line,
-                Some(format!("watch {w}")),
-                "is listed twice".into(),
-                "list each signal once",
-            );
+            problem(w, "is listed twice".into(), "list each signal once".into());
             continue;
         }
         out.push(probe);
     }
-    out
+    (out, problems)
 }
 
 /// Which fields each kind accepts (besides kind and name).

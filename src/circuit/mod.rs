@@ -11,6 +11,7 @@ pub mod waveform;
 pub mod yaml;
 
 use crate::settings::{Overrides, Start};
+pub use build::{resolve_watch, WatchProblem};
 use std::fmt;
 pub use waveform::Waveform;
 

@@ -15,6 +15,15 @@ pub enum RawValue {
 }
 
 impl RawValue {
+    /// The value as a number of quantity `q`: a finite number, or text with an SI prefix and unit.
+    pub fn number(&self, q: crate::units::Quantity) -> Result<f64, String> {
+        match self {
+            RawValue::Number(x) if x.is_finite() => Ok(*x),
+            RawValue::Number(x) => Err(format!("{x} is not finite")),
+            RawValue::Text(s) => crate::units::parse_value(s, q).map_err(|e| e.to_string()),
+        }
+    }
+
     pub fn as_text(&self) -> String {
         match self {
             RawValue::Number(x) => format!("{x}"),
