@@ -102,9 +102,15 @@ pub fn simulate(
     flags: &Overrides,
     csv: &Path,
     json: Option<&Path>,
+    points: Option<usize>,
 ) -> Result<(), Failure> {
     let c = load(file)?;
     let settings = settings_for(&c, flags)?;
+    if points.is_some_and(|n| n < 2) {
+        return Err(Failure::BadInput(anyhow!(
+            "--points must be at least 2 (the first time is 0, the last the stop time)"
+        )));
+    }
     let run = integrate::simulate(&c, &settings).map_err(|e| {
         Failure::NotMet(anyhow!(
             "{}: {} run failed: {e}",
@@ -112,7 +118,14 @@ pub fn simulate(
             settings.method.as_str()
         ))
     })?;
-    write_atomic(csv, &output::trajectory_csv(&run.trajectory))?;
+    let traj = match points {
+        Some(n) => {
+            let times = ringtrue::reference::Reference::uniform_times(c.run.stop, n);
+            run.trajectory.resample(&c.breakpoints(), &times)
+        }
+        None => run.trajectory.clone(),
+    };
+    write_atomic(csv, &output::trajectory_csv(&traj))?;
     if let Some(j) = json {
         let text = serde_json::to_string_pretty(&output::stats_json(&run.stats))
             .expect("plain numbers serialize");

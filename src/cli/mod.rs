@@ -41,6 +41,10 @@ enum Command {
         /// Where to write the run's statistics as JSON.
         #[arg(long, value_name = "STATS.json")]
         json: Option<PathBuf>,
+        /// Write the signals at N uniform times over [0, stop] instead of at every accepted step,
+        /// by a cubic through the nearest accepted points between breakpoints (error O(h^4)).
+        #[arg(long, value_name = "N")]
+        points: Option<usize>,
     },
     /// Rerun the circuit under every setting of the plan, measure each against the reference, and
     /// recommend the cheapest setting that meets the target.
@@ -234,7 +238,8 @@ pub fn run() -> i32 {
             settings,
             csv,
             json,
-        } => commands::simulate(&file, &settings.overrides(), &csv, json.as_deref()),
+            points,
+        } => commands::simulate(&file, &settings.overrides(), &csv, json.as_deref(), points),
         Command::Audit {
             file,
             out,

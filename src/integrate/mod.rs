@@ -11,6 +11,7 @@
 pub mod error;
 pub mod methods;
 pub mod newton;
+pub mod resample;
 pub mod start;
 
 use crate::circuit::Circuit;
@@ -49,6 +50,16 @@ impl Trajectory {
             .iter()
             .position(|l| l == label)
             .map(|k| self.values[k].as_slice())
+    }
+
+    /// The signals at `times`, interpolated within the pieces between `breakpoints`
+    /// (see `resample`).
+    pub fn resample(&self, breakpoints: &[f64], times: &[f64]) -> Trajectory {
+        Trajectory {
+            labels: self.labels.clone(),
+            times: times.to_vec(),
+            values: resample::interpolate(self, breakpoints, times),
+        }
     }
 }
 
