@@ -64,8 +64,8 @@ pub fn poles(circuit: &Circuit, settings: &Settings) -> Result<Vec<Pole>, Refere
     let mut cj = Matrix::new(n);
     cj.set_combination(1.0, &sys.c, &Matrix::new(n));
     sys.add_charge_jacobian(&x0, 1.0, &mut cj);
-    let c = DMatrix::from_fn(n, n, |i, j| cj.get(i, j));
-    let g = DMatrix::from_fn(n, n, |i, j| gj.get(i, j));
+    let c = cj.to_dense();
+    let g = gj.to_dense();
     pencil_poles(&c, &g)
 }
 

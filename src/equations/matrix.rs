@@ -1,15 +1,55 @@
-//! The one matrix type the integrators see: assembled by stamping, factored once, solved many times.
+//! The one matrix type the integrators see: assembled by stamping, factored, solved many times.
 //!
-//! Storage is dense and row-major, with an LU factorization (partial pivoting) that skips zero
-//! multipliers, so the banded matrices of ladders and chains factor in about O(n * bandwidth^2) work.
-//! A sparse backend can replace this file without touching the integrators: they only call `zero`,
-//! `add`, `factor` and `Lu::solve`.
+//! Storage is sparse by rows (sorted column indices), so assembly, products and the term magnitudes of
+//! the residual test cost O(nonzeros) at any size. Zeroing keeps the pattern, so once a Jacobian has been
+//! stamped its pattern is fixed and re-stamping allocates nothing.
+//!
+//! Two factorizations sit behind `factor`, chosen by size:
+//! - up to `DENSE_LIMIT` unknowns, a dense LU with partial pivoting that skips zero multipliers (fast for
+//!   the small circuits most audits run, and with an exact singular-column report);
+//! - above it, faer's sparse LU (fill-reducing column order, partial row pivoting). Its symbolic
+//!   analysis is computed once per pattern and shared by every clone of the matrix; each `factor` repeats
+//!   only the numeric factorization.
+
+use faer::dyn_stack::{MemBuffer, MemStack};
+use faer::sparse::linalg::lu::{factorize_symbolic_lu, LuRef, NumericLu, SymbolicLu};
+use faer::sparse::{SparseColMatRef, SymbolicSparseColMatRef};
+use faer::{MatMut, Par};
+use std::sync::{Arc, OnceLock};
+
+/// Matrices with more unknowns than this are factored by the sparse LU. Measured on RC ladders and
+/// meshes with `cargo bench --bench engine -- factor` (see the README's benchmark section).
+pub const DENSE_LIMIT: usize = 64;
+
+/// Which factorization `factor` uses.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Backend {
+    /// Dense up to `DENSE_LIMIT` unknowns, sparse above.
+    Auto,
+    Dense,
+    Sparse,
+}
+
+#[derive(Debug, Clone, Default, PartialEq)]
+struct Row {
+    cols: Vec<usize>,
+    vals: Vec<f64>,
+}
 
 /// A square matrix under assembly.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone)]
 pub struct Matrix {
     n: usize,
-    a: Vec<f64>,
+    rows: Vec<Row>,
+    backend: Backend,
+    /// The sparse symbolic analysis of the present pattern; reset when an entry is added to the pattern.
+    plan: OnceLock<Arc<SparsePlan>>,
+}
+
+impl PartialEq for Matrix {
+    fn eq(&self, other: &Self) -> bool {
+        self.n == other.n && self.rows == other.rows
+    }
 }
 
 /// A factorization that found no usable pivot in `column`.
@@ -18,11 +58,52 @@ pub struct Singular {
     pub column: usize,
 }
 
+/// The compressed-column pattern of a matrix and its symbolic LU.
+#[derive(Debug)]
+struct SparsePlan {
+    col_ptr: Vec<usize>,
+    row_idx: Vec<usize>,
+    /// For row r's j-th stored entry, its place in the compressed-column values: `to_csc[row_start[r] + j]`.
+    row_start: Vec<usize>,
+    to_csc: Vec<usize>,
+    symbolic: Result<SymbolicLu<usize>, String>,
+}
+
 impl Matrix {
     pub fn new(n: usize) -> Self {
         Matrix {
             n,
-            a: vec![0.0; n * n],
+            rows: vec![Row::default(); n],
+            backend: Backend::Auto,
+            plan: OnceLock::new(),
+        }
+    }
+
+    /// An n x n matrix whose pattern already holds the whole diagonal (as zeros).
+    pub fn with_diagonal(n: usize) -> Self {
+        let mut m = Matrix::new(n);
+        for (r, row) in m.rows.iter_mut().enumerate() {
+            row.cols.push(r);
+            row.vals.push(0.0);
+        }
+        m
+    }
+
+    /// Chooses the factorization (tests compare the two; `Auto` is the default).
+    pub fn set_backend(&mut self, backend: Backend) {
+        self.backend = backend;
+    }
+
+    pub fn backend(&self) -> Backend {
+        self.backend
+    }
+
+    /// True when `factor` will use the sparse LU.
+    pub fn uses_sparse(&self) -> bool {
+        match self.backend {
+            Backend::Auto => self.n > DENSE_LIMIT,
+            Backend::Dense => false,
+            Backend::Sparse => true,
         }
     }
 
@@ -30,61 +111,132 @@ impl Matrix {
         self.n
     }
 
+    /// Stored entries (explicit zeros included).
+    pub fn stored(&self) -> usize {
+        self.rows.iter().map(|r| r.cols.len()).sum()
+    }
+
+    /// Sets every value to zero and keeps the pattern.
     pub fn zero(&mut self) {
-        self.a.fill(0.0);
+        for r in &mut self.rows {
+            r.vals.fill(0.0);
+        }
     }
 
     #[inline]
     pub fn add(&mut self, row: usize, col: usize, v: f64) {
-        self.a[row * self.n + col] += v;
+        let r = &mut self.rows[row];
+        match r.cols.binary_search(&col) {
+            Ok(j) => r.vals[j] += v,
+            Err(j) => {
+                r.cols.insert(j, col);
+                r.vals.insert(j, v);
+                self.plan = OnceLock::new();
+            }
+        }
     }
 
     #[inline]
     pub fn get(&self, row: usize, col: usize) -> f64 {
-        self.a[row * self.n + col]
+        let r = &self.rows[row];
+        r.cols.binary_search(&col).map_or(0.0, |j| r.vals[j])
     }
 
-    /// `self = alpha * c + g`, reusing the storage.
+    /// The stored entries of row `r` as (column, value), in column order.
+    pub fn row(&self, r: usize) -> impl Iterator<Item = (usize, f64)> + '_ {
+        let row = &self.rows[r];
+        row.cols.iter().copied().zip(row.vals.iter().copied())
+    }
+
+    /// `self = alpha * c + g`, keeping this matrix's pattern and adding theirs.
     pub fn set_combination(&mut self, alpha: f64, c: &Matrix, g: &Matrix) {
-        for ((d, &cv), &gv) in self.a.iter_mut().zip(&c.a).zip(&g.a) {
-            *d = alpha * cv + gv;
+        self.zero();
+        for r in 0..self.n.min(c.n) {
+            for (col, v) in c.row(r) {
+                self.add(r, col, alpha * v);
+            }
+        }
+        for r in 0..self.n.min(g.n) {
+            for (col, v) in g.row(r) {
+                self.add(r, col, v);
+            }
         }
     }
 
     /// `y = self * x`.
     pub fn mul_vec(&self, x: &[f64], y: &mut [f64]) {
-        for (r, yr) in y.iter_mut().enumerate() {
-            let row = &self.a[r * self.n..(r + 1) * self.n];
-            *yr = row.iter().zip(x).map(|(a, b)| a * b).sum();
-        }
+        y.fill(0.0);
+        self.mul_vec_add(x, y);
     }
 
-    /// Adds `self * x` to `y`, skipping zero entries (most of a circuit matrix).
+    /// Adds `self * x` to `y`.
     pub fn mul_vec_add(&self, x: &[f64], y: &mut [f64]) {
-        for (r, yr) in y.iter_mut().enumerate() {
-            let row = &self.a[r * self.n..(r + 1) * self.n];
+        for (row, yr) in self.rows.iter().zip(y.iter_mut()) {
             let mut s = 0.0;
-            for (a, b) in row.iter().zip(x) {
-                if *a != 0.0 {
-                    s += a * b;
-                }
+            for (&c, &a) in row.cols.iter().zip(&row.vals) {
+                s += a * x[c];
             }
             *yr += s;
         }
     }
 
-    /// True when row `r` has any nonzero entry.
-    pub fn row_is_nonzero(&self, r: usize) -> bool {
-        self.a[r * self.n..(r + 1) * self.n]
-            .iter()
-            .any(|&v| v != 0.0)
+    /// Adds |self_rj x_j| * factor over each row to `out` (the magnitudes of the terms of `self * x`).
+    pub fn abs_terms_add(&self, x: &[f64], factor: f64, out: &mut [f64]) {
+        for (row, o) in self.rows.iter().zip(out.iter_mut()) {
+            let mut s = 0.0;
+            for (&c, &a) in row.cols.iter().zip(&row.vals) {
+                s += (a * x[c]).abs();
+            }
+            *o += factor.abs() * s;
+        }
     }
 
-    /// LU factorization with partial pivoting. A pivot below a few rounding errors of its column's
-    /// largest entry counts as zero: the matrix is singular in that column's unknown.
+    /// True when row `r` has any nonzero entry.
+    pub fn row_is_nonzero(&self, r: usize) -> bool {
+        self.rows[r].vals.iter().any(|&v| v != 0.0)
+    }
+
+    /// The matrix as a dense column-major array (for the small dense computations of the references).
+    pub fn to_dense(&self) -> nalgebra::DMatrix<f64> {
+        let mut d = nalgebra::DMatrix::zeros(self.n, self.n);
+        for r in 0..self.n {
+            for (c, v) in self.row(r) {
+                d[(r, c)] = v;
+            }
+        }
+        d
+    }
+
+    /// Computes the sparse symbolic analysis now, so that clones share it.
+    pub fn prepare(&self) {
+        if self.uses_sparse() {
+            self.plan();
+        }
+    }
+
+    fn plan(&self) -> &Arc<SparsePlan> {
+        self.plan.get_or_init(|| Arc::new(SparsePlan::new(self)))
+    }
+
+    /// LU factorization. A matrix singular in some unknown reports that unknown's column.
     pub fn factor(&self) -> Result<Lu, Singular> {
+        if self.uses_sparse() {
+            self.factor_sparse().map(Lu::Sparse)
+        } else {
+            self.factor_dense().map(Lu::Dense)
+        }
+    }
+
+    /// Dense LU with partial pivoting. A pivot below a few rounding errors of its column's largest entry
+    /// counts as zero: the matrix is singular in that column's unknown.
+    fn factor_dense(&self) -> Result<DenseLu, Singular> {
         let n = self.n;
-        let mut lu = self.a.clone();
+        let mut lu = vec![0.0; n * n];
+        for (r, row) in self.rows.iter().enumerate() {
+            for (&c, &v) in row.cols.iter().zip(&row.vals) {
+                lu[r * n + c] = v;
+            }
+        }
         let mut perm: Vec<usize> = (0..n).collect();
         let mut col_max = vec![0.0f64; n];
         for r in 0..n {
@@ -140,21 +292,125 @@ impl Matrix {
                 row_end[i] = row_end[i].max(end_k);
             }
         }
-        Ok(Lu { n, lu, perm })
+        Ok(DenseLu { n, lu, perm })
+    }
+
+    fn factor_sparse(&self) -> Result<SparseLu, Singular> {
+        let plan = Arc::clone(self.plan());
+        let symbolic = match &plan.symbolic {
+            Ok(s) => s,
+            Err(_) => return Err(Singular { column: 0 }),
+        };
+        let mut values = vec![0.0; plan.row_idx.len()];
+        for (r, row) in self.rows.iter().enumerate() {
+            let start = plan.row_start[r];
+            for (j, &v) in row.vals.iter().enumerate() {
+                values[plan.to_csc[start + j]] = v;
+            }
+        }
+        let mut numeric = NumericLu::new();
+        {
+            let a = SparseColMatRef::new(plan.pattern(self.n), &values);
+            let req = symbolic.factorize_numeric_lu_scratch::<f64>(Par::Seq, Default::default());
+            let mut buf = MemBuffer::new(req);
+            let result = symbolic.factorize_numeric_lu(
+                &mut numeric,
+                a,
+                Par::Seq,
+                MemStack::new(&mut buf),
+                Default::default(),
+            );
+            if let Err(e) = result {
+                let column = match e {
+                    faer::sparse::linalg::LuError::SymbolicSingular { index } => {
+                        symbolic.col_perm().arrays().0.get(index).copied().unwrap_or(0)
+                    }
+                    faer::sparse::linalg::LuError::Generic(_) => 0,
+                };
+                return Err(Singular { column });
+            }
+        }
+        let lu = SparseLu {
+            plan,
+            numeric,
+            values,
+        };
+        lu.check_pivots()?;
+        Ok(lu)
+    }
+}
+
+impl SparsePlan {
+    fn new(m: &Matrix) -> SparsePlan {
+        let n = m.n;
+        let mut counts = vec![0usize; n];
+        for row in &m.rows {
+            for &c in &row.cols {
+                counts[c] += 1;
+            }
+        }
+        let mut col_ptr = vec![0usize; n + 1];
+        for c in 0..n {
+            col_ptr[c + 1] = col_ptr[c] + counts[c];
+        }
+        let nnz = col_ptr[n];
+        let mut next = col_ptr[..n].to_vec();
+        let mut row_idx = vec![0usize; nnz];
+        let mut row_start = Vec::with_capacity(n);
+        let mut to_csc = Vec::with_capacity(nnz);
+        // Rows in increasing order: each column's row indices come out sorted.
+        for (r, row) in m.rows.iter().enumerate() {
+            row_start.push(to_csc.len());
+            for &c in &row.cols {
+                let p = next[c];
+                next[c] += 1;
+                row_idx[p] = r;
+                to_csc.push(p);
+            }
+        }
+        let pattern = SymbolicSparseColMatRef::new_checked(n, n, &col_ptr, None, &row_idx);
+        let symbolic = factorize_symbolic_lu(pattern, Default::default()).map_err(|e| format!("{e:?}"));
+        SparsePlan {
+            col_ptr,
+            row_idx,
+            row_start,
+            to_csc,
+            symbolic,
+        }
+    }
+
+    fn pattern(&self, n: usize) -> SymbolicSparseColMatRef<'_, usize> {
+        // The invariants were checked when the plan was built.
+        SymbolicSparseColMatRef::new_checked(n, n, &self.col_ptr, None, &self.row_idx)
     }
 }
 
 /// A factored matrix.
 #[derive(Debug, Clone)]
-pub struct Lu {
-    n: usize,
-    lu: Vec<f64>,
-    perm: Vec<usize>,
+pub enum Lu {
+    Dense(DenseLu),
+    Sparse(SparseLu),
 }
 
 impl Lu {
     /// Solves `A x = b`, overwriting `b` with `x`.
     pub fn solve(&self, b: &mut [f64]) {
+        match self {
+            Lu::Dense(d) => d.solve(b),
+            Lu::Sparse(s) => s.solve(b),
+        }
+    }
+}
+
+#[derive(Debug, Clone)]
+pub struct DenseLu {
+    n: usize,
+    lu: Vec<f64>,
+    perm: Vec<usize>,
+}
+
+impl DenseLu {
+    fn solve(&self, b: &mut [f64]) {
         let n = self.n;
         let mut y: Vec<f64> = self.perm.iter().map(|&p| b[p]).collect();
         for i in 0..n {
@@ -182,26 +438,97 @@ impl Lu {
     }
 }
 
+#[derive(Debug, Clone)]
+pub struct SparseLu {
+    plan: Arc<SparsePlan>,
+    numeric: NumericLu<usize, f64>,
+    /// The factored matrix's values in compressed-column order (for the pivot check).
+    values: Vec<f64>,
+}
+
+impl SparseLu {
+    fn lu_ref(&self) -> LuRef<'_, usize, f64> {
+        let symbolic = self
+            .plan
+            .symbolic
+            .as_ref()
+            .expect("a sparse factorization exists only with its symbolic analysis");
+        LuRef::new_unchecked(symbolic, &self.numeric)
+    }
+
+    fn solve(&self, b: &mut [f64]) {
+        let lu = self.lu_ref();
+        let req = lu
+            .symbolic()
+            .solve_in_place_scratch::<f64>(1, Par::Seq);
+        let mut buf = MemBuffer::new(req);
+        let n = b.len();
+        let rhs = MatMut::from_column_major_slice_mut(b, n, 1);
+        lu.solve_in_place_with_conj(faer::Conj::No, rhs, Par::Seq, MemStack::new(&mut buf));
+    }
+
+    /// The sparse LU reports no small pivots, so the factorization is checked by solving A x = A 1: a
+    /// solution that is not finite, or off from 1 by more than 1 anywhere, means no usable pivot; the
+    /// unknown furthest off is reported as the singular one (it carries the null direction).
+    fn check_pivots(&self) -> Result<(), Singular> {
+        let plan = &self.plan;
+        let n = plan.col_ptr.len() - 1;
+        let mut b = vec![0.0; n];
+        for c in 0..n {
+            for p in plan.col_ptr[c]..plan.col_ptr[c + 1] {
+                b[plan.row_idx[p]] += self.values[p];
+            }
+        }
+        self.solve(&mut b);
+        let mut worst = (0usize, 0.0f64);
+        for (i, x) in b.iter().enumerate() {
+            let off = if x.is_finite() {
+                (x - 1.0).abs()
+            } else {
+                f64::INFINITY
+            };
+            if off > worst.1 {
+                worst = (i, off);
+            }
+        }
+        if worst.1 > 1.0 {
+            Err(Singular { column: worst.0 })
+        } else {
+            Ok(())
+        }
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
 
-    #[test]
-    fn solves_a_pivoting_system() {
+    fn pivoting_matrix(backend: Backend) -> Matrix {
         // Needs a row swap: zero on the first diagonal entry.
         let mut m = Matrix::new(3);
+        m.set_backend(backend);
         let rows = [[0.0, 2.0, 1.0], [1.0, 1.0, 0.0], [3.0, 0.0, 4.0]];
         for (r, row) in rows.iter().enumerate() {
             for (c, &v) in row.iter().enumerate() {
-                m.add(r, c, v);
+                if v != 0.0 {
+                    m.add(r, c, v);
+                }
             }
         }
-        let x = [1.0, -2.0, 0.5];
-        let mut b = [0.0; 3];
-        m.mul_vec(&x, &mut b);
-        m.factor().unwrap().solve(&mut b);
-        for (a, e) in b.iter().zip(x) {
-            assert!((a - e).abs() < 1e-14, "{a} vs {e}");
+        m
+    }
+
+    #[test]
+    fn solves_a_pivoting_system_on_both_backends() {
+        for backend in [Backend::Dense, Backend::Sparse] {
+            let m = pivoting_matrix(backend);
+            let x = [1.0, -2.0, 0.5];
+            let mut b = [0.0; 3];
+            m.mul_vec(&x, &mut b);
+            m.factor().unwrap().solve(&mut b);
+            for (a, e) in b.iter().zip(x) {
+                assert!((a - e).abs() < 1e-14, "{backend:?}: {a} vs {e}");
+            }
         }
     }
 
@@ -213,5 +540,19 @@ mod tests {
         m.add(1, 0, 2.0);
         m.add(1, 1, 2.0);
         assert_eq!(m.factor().unwrap_err(), Singular { column: 1 });
+        m.set_backend(Backend::Sparse);
+        assert!(m.factor().is_err());
+    }
+
+    #[test]
+    fn zero_keeps_the_pattern_and_the_symbolic_analysis() {
+        let mut m = pivoting_matrix(Backend::Sparse);
+        m.prepare();
+        let before = Arc::clone(m.plan());
+        m.zero();
+        m.add(0, 1, 2.0);
+        assert!(Arc::ptr_eq(m.plan(), &before));
+        m.add(0, 0, 1.0); // a new entry: a new pattern
+        assert!(!Arc::ptr_eq(m.plan(), &before));
     }
 }

@@ -121,6 +121,9 @@ pub struct System {
     pub held_currents: Vec<HeldCurrent>,
     /// Linear and time-invariant: the Jacobian depends on nothing but the step.
     pub linear: bool,
+    /// An all-zero matrix with the pattern of every Jacobian of these equations (G, C, the diagonal and
+    /// the nonlinear stamps), its sparse symbolic analysis done once: Newton starts from a clone.
+    pub jacobian: Matrix,
     pub node_count: usize,
 }
 
@@ -470,6 +473,16 @@ impl System {
             }
         }
         let linear = diodes.is_empty() && switches.is_empty();
+        let mut jacobian = Matrix::with_diagonal(n);
+        jacobian.set_combination(1.0, &c, &g);
+        for d in &diodes {
+            stamp2(&mut jacobian, d.anode, d.cathode, 0.0);
+        }
+        for s in &switches {
+            stamp2(&mut jacobian, s.a, s.b, 0.0);
+        }
+        jacobian.zero();
+        jacobian.prepare();
         System {
             unknowns,
             row_kinds,
@@ -483,6 +496,7 @@ impl System {
             held_voltages,
             held_currents,
             linear,
+            jacobian,
             node_count,
         }
     }
@@ -565,22 +579,10 @@ impl System {
     /// |alpha C_rj x_j| and the nonlinear contributions, without cancellation. A residual smaller than a
     /// few rounding errors of this is as converged as the arithmetic allows.
     pub fn term_magnitudes(&self, x: &[f64], t: f64, alpha: f64, out: &mut [f64]) {
-        let n = self.size();
-        for (r, o) in out.iter_mut().enumerate().take(n) {
-            let mut s = 0.0;
-            for (j, xj) in x.iter().enumerate().take(n) {
-                let g = self.g.get(r, j);
-                if g != 0.0 {
-                    s += (g * xj).abs();
-                }
-                if alpha != 0.0 {
-                    let c = self.c.get(r, j);
-                    if c != 0.0 {
-                        s += (alpha * c * xj).abs();
-                    }
-                }
-            }
-            *o = s;
+        out.fill(0.0);
+        self.g.abs_terms_add(x, 1.0, out);
+        if alpha != 0.0 {
+            self.c.abs_terms_add(x, alpha, out);
         }
         for d in &self.diodes {
             let v = volt(x, d.anode) - volt(x, d.cathode);

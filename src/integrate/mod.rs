@@ -266,7 +266,7 @@ pub fn simulate_system(
     settings.validate()?;
     let clock = Instant::now();
     let sc = &settings.steps;
-    let mut start_newton = Newton::new(sys.size());
+    let mut start_newton = Newton::for_system(sys);
     let x0 = initial_state(sys, settings, &mut start_newton)?;
     let n = sys.size();
     let mut q0 = vec![0.0; n];
@@ -288,7 +288,7 @@ pub fn simulate_system(
 
     let mut solver = Solver {
         sys,
-        newton: Newton::new(n),
+        newton: Newton::for_system(sys),
         tol: NewtonTolerances::from_step_tolerances(&settings.tolerances, 30),
         cur: Point {
             t: 0.0,

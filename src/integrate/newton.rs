@@ -93,11 +93,19 @@ impl Newton {
             f: vec![0.0; n],
             scale: vec![0.0; n],
             dx: vec![0.0; n],
-            jac: Matrix::new(n),
+            jac: Matrix::with_diagonal(n),
             cache: Vec::new(),
             last_used: usize::MAX,
             last_lu: None,
             work: Work::default(),
+        }
+    }
+
+    /// Storage for the equations of `sys`, starting from its Jacobian pattern and symbolic analysis.
+    pub fn for_system(sys: &System) -> Self {
+        Newton {
+            jac: sys.jacobian.clone(),
+            ..Newton::new(sys.size())
         }
     }
 

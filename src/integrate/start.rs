@@ -89,6 +89,8 @@ struct Held<'a> {
     sys: &'a System,
     /// (held-voltage index, extra unknown index)
     caps: Vec<(usize, usize)>,
+    /// Rows of inductors whose current is held.
+    held_rows: Vec<bool>,
 }
 
 impl Equations for Held<'_> {
@@ -100,7 +102,7 @@ impl Equations for Held<'_> {
         let n = self.sys.size();
         let (xs, f_sys) = (&x[..n], &mut f[..n]);
         let mut b = vec![0.0; n];
-        let mut jsys = jac.is_some().then(|| Matrix::new(n));
+        let mut jsys = jac.is_some().then(|| self.sys.jacobian.clone());
         if let Some(j) = jsys.as_mut() {
             j.set_combination(0.0, &self.sys.c, &self.sys.g);
         }
@@ -113,8 +115,7 @@ impl Equations for Held<'_> {
         let mut jac = jac;
         if let (Some(j), Some(js)) = (jac.as_deref_mut(), jsys.as_ref()) {
             for r in 0..n {
-                for c in 0..n {
-                    let v = js.get(r, c);
+                for (c, v) in js.row(r) {
                     if v != 0.0 {
                         j.add(r, c, v);
                     }
@@ -127,8 +128,8 @@ impl Equations for Held<'_> {
             f[k] = x[k] - h.current;
             scale[k] = x[k].abs().max(h.current.abs());
             if let Some(j) = jac.as_deref_mut() {
-                for c in 0..self.size() {
-                    let v = j.get(k, c);
+                let entries: Vec<(usize, f64)> = j.row(k).collect();
+                for (c, v) in entries {
                     if v != 0.0 {
                         j.add(k, c, -v);
                     }
@@ -176,7 +177,7 @@ impl Equations for Held<'_> {
 
     fn row_kind(&self, r: usize) -> UnknownKind {
         if r < self.sys.size() {
-            if self.sys.held_currents.iter().any(|h| h.unknown == r) {
+            if self.held_rows[r] {
                 UnknownKind::Current
             } else {
                 self.sys.row_kinds[r]
@@ -202,7 +203,15 @@ pub fn initial_conditions(
         .enumerate()
         .map(|(j, (i, _))| (i, n + j))
         .collect();
-    let eq = Held { sys, caps };
+    let mut held_rows = vec![false; n];
+    for h in &sys.held_currents {
+        held_rows[h.unknown] = true;
+    }
+    let eq = Held {
+        sys,
+        caps,
+        held_rows,
+    };
     let mut x = vec![0.0; eq.size()];
     for h in &sys.held_currents {
         x[h.unknown] = h.current;

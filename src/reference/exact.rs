@@ -204,8 +204,8 @@ impl Exact {
         }
         let sys = System::new(circuit);
         let n = sys.size();
-        let c = DMatrix::from_fn(n, n, |i, j| sys.c.get(i, j));
-        let g = DMatrix::from_fn(n, n, |i, j| sys.g.get(i, j));
+        let c = sys.c.to_dense();
+        let g = sys.g.to_dense();
         let red = Reduction::new(&c, &g)?;
         let Reduction {
             r,
