@@ -4,6 +4,7 @@
 //! The circuit file's `run:` map, command-line flags and plan entries all produce `Overrides`, applied
 //! in that order on top of the defaults, so a setting means the same wherever it is written.
 
+pub use crate::equations::matrix::Backend;
 use std::fmt;
 use std::str::FromStr;
 
@@ -129,6 +130,13 @@ fn parse_named<T: Copy>(
             given: s.to_string(),
             accepted: all.iter().map(|&v| name(v)).collect(),
         })
+}
+
+impl FromStr for Backend {
+    type Err = UnknownName;
+    fn from_str(s: &str) -> Result<Self, UnknownName> {
+        parse_named(s, "linear solver", &Backend::ALL, Backend::as_str)
+    }
 }
 
 impl FromStr for MethodName {
@@ -265,6 +273,11 @@ pub struct StepControl {
     pub restart: Restart,
     /// Largest factor by which one step may exceed the previous one.
     pub growth_limit: f64,
+    /// A proposed growth by less than this factor keeps the present step, and with it the factored
+    /// Jacobian of a linear circuit (1 turns holding off). Hairer & Wanner's RADAU5 keeps the step for
+    /// growth in [1, 1.2] (Solving ODEs II, IV.8, from memory); a sparse refactorization costs many
+    /// solves, so we hold a little longer.
+    pub hold_growth: f64,
     /// Smallest factor by which a rejected step is shortened.
     pub shrink_limit: f64,
     /// Safety factor on the step that the LTE estimate predicts.
@@ -284,6 +297,7 @@ impl Default for StepControl {
             fixed_step: None,
             restart: Restart::BackwardEuler,
             growth_limit: 2.0,
+            hold_growth: 1.5,
             shrink_limit: 0.1,
             safety: 0.9,
             min_step_fraction: 1e-14,
@@ -306,6 +320,12 @@ impl StepControl {
             self.growth_limit,
             self.growth_limit > 1.0,
             "greater than 1",
+        )?;
+        check(
+            "hold_growth",
+            self.hold_growth,
+            self.hold_growth >= 1.0 && self.hold_growth <= self.growth_limit,
+            "between 1 and growth_limit",
         )?;
         check(
             "shrink_limit",
@@ -346,6 +366,9 @@ pub struct Settings {
     pub tolerances: Tolerances,
     pub steps: StepControl,
     pub start: Start,
+    /// Dense or sparse LU for the Jacobian (`Auto` chooses by size; both give the same results to
+    /// rounding).
+    pub linear_solver: Backend,
 }
 
 impl Settings {
@@ -355,6 +378,7 @@ impl Settings {
             tolerances: Tolerances::default(),
             steps: StepControl::default(),
             start: Start::OperatingPoint,
+            linear_solver: Backend::Auto,
         }
     }
 
@@ -384,6 +408,7 @@ impl Settings {
         s.restart = o.restart.unwrap_or(s.restart);
         s.step_budget = o.step_budget.unwrap_or(s.step_budget);
         self.start = o.start.unwrap_or(self.start);
+        self.linear_solver = o.linear_solver.unwrap_or(self.linear_solver);
     }
 }
 
@@ -401,6 +426,7 @@ pub struct Overrides {
     pub restart: Option<Restart>,
     pub start: Option<Start>,
     pub step_budget: Option<u64>,
+    pub linear_solver: Option<Backend>,
 }
 
 #[cfg(test)]

@@ -193,6 +193,7 @@ impl Plan {
                                                     scale,
                                                     restart,
                                                     start: None,
+                                                    linear_solver: None,
                                                     step_budget,
                                                 });
                                             }

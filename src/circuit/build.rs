@@ -95,9 +95,10 @@ pub(super) fn build(raw: RawCircuit, text: &str, file: &str) -> Result<Circuit, 
     let mut names = HashSet::new();
     let mut seen: std::collections::HashMap<&str, usize> = std::collections::HashMap::new();
     let mut elements = Vec::with_capacity(raw.elements.len());
+    let element_lines = yaml::ElementLines::new(text);
     for re in &raw.elements {
         let nth = seen.entry(re.name.as_str()).or_insert(0);
-        let line = yaml::element_line_nth(text, &re.name, *nth);
+        let line = element_lines.line(&re.name, *nth);
         *nth += 1;
         let subject = Some(format!("element {}", re.name));
         if re.name.is_empty() || re.name.contains('.') || re.name.contains(char::is_whitespace) {
@@ -344,18 +345,10 @@ fn build_watch(cx: &mut Ctx, raw: &RawCircuit, elements: &[Element], ground: &st
     let line = find_line(cx.text, "watch:");
     let Some(list) = &raw.watch else {
         // Default: every node, in order of first appearance.
-        let mut out: Vec<Probe> = Vec::new();
-        for e in elements {
-            if let Some(t) = e.kind.terminals() {
-                for n in t {
-                    let p = Probe::Node(n.clone());
-                    if n != ground && !out.contains(&p) {
-                        out.push(p);
-                    }
-                }
-            }
-        }
-        return out;
+        return super::distinct_nodes(elements, ground)
+            .into_iter()
+            .map(|n| Probe::Node(n.to_string()))
+            .collect();
     };
     let (probes, problems) = resolve_watch(list, elements, ground);
     for p in problems {
@@ -379,12 +372,8 @@ pub fn resolve_watch(
     elements: &[Element],
     ground: &str,
 ) -> (Vec<Probe>, Vec<WatchProblem>) {
-    let mut nodes: Vec<&str> = Vec::new();
-    for n in elements.iter().filter_map(|e| e.kind.terminals()).flatten() {
-        if n != ground && !nodes.contains(&n.as_str()) {
-            nodes.push(n);
-        }
-    }
+    let node_list = super::distinct_nodes(elements, ground);
+    let nodes: HashSet<&str> = node_list.iter().copied().collect();
     let mut problems = Vec::new();
     let mut problem = |w: &str, message: String, hint: String| {
         problems.push(WatchProblem {
@@ -439,9 +428,15 @@ pub fn resolve_watch(
             let hint = if elements.iter().any(|e| &e.name == w) {
                 format!("to watch the current of element {w}, write {w}.current")
             } else {
+                let shown = node_list.len().min(20);
+                let more = if node_list.len() > shown {
+                    format!(", and {} more", node_list.len() - shown)
+                } else {
+                    String::new()
+                };
                 format!(
-                    "watch a node that an element connects to ({}), or NAME.current",
-                    nodes.join(", ")
+                    "watch a node that an element connects to ({}{more}), or NAME.current",
+                    node_list[..shown].join(", ")
                 )
             };
             problem(w, format!("'{w}' is not a node of this circuit"), hint);

@@ -38,25 +38,45 @@ pub fn element_line(text: &str, name: &str) -> Option<usize> {
 
 /// The line of the `nth` (0-based) declaration of an element called `name`, for duplicated names.
 pub fn element_line_nth(text: &str, name: &str, nth: usize) -> Option<usize> {
-    let mut seen = 0;
-    let mut in_elements = false;
-    for (i, line) in text.lines().enumerate() {
-        let trimmed = line.trim_start();
-        if !line.starts_with([' ', '\t', '-']) && !trimmed.is_empty() && !trimmed.starts_with('#') {
-            in_elements = trimmed.starts_with("elements:");
-        }
-        if in_elements && declares_name(line, name) {
-            if seen == nth {
-                return Some(i + 1);
-            }
-            seen += 1;
-        }
-    }
-    None
+    ElementLines::new(text).line(name, nth)
 }
 
-fn declares_name(line: &str, name: &str) -> bool {
+/// Every element declaration's line, read in one pass over the text (a circuit may have 10^5
+/// elements: looking each up by rescanning the text would be quadratic).
+#[derive(Debug, Clone, Default)]
+pub struct ElementLines {
+    lines: std::collections::HashMap<String, Vec<usize>>,
+}
+
+impl ElementLines {
+    pub fn new(text: &str) -> Self {
+        let mut lines: std::collections::HashMap<String, Vec<usize>> = Default::default();
+        let mut in_elements = false;
+        for (i, line) in text.lines().enumerate() {
+            let trimmed = line.trim_start();
+            if !line.starts_with([' ', '\t', '-']) && !trimmed.is_empty() && !trimmed.starts_with('#')
+            {
+                in_elements = trimmed.starts_with("elements:");
+            }
+            if in_elements {
+                for name in declared_names(line) {
+                    lines.entry(name).or_default().push(i + 1);
+                }
+            }
+        }
+        ElementLines { lines }
+    }
+
+    /// The 1-based line of the `nth` (0-based) declaration of `name`.
+    pub fn line(&self, name: &str, nth: usize) -> Option<usize> {
+        self.lines.get(name).and_then(|v| v.get(nth)).copied()
+    }
+}
+
+/// The values of the `name:` keys on one line (a line may declare several flow-style elements).
+fn declared_names(line: &str) -> Vec<String> {
     let code = line.split('#').next().unwrap_or("");
+    let mut out = Vec::new();
     let mut rest = code;
     while let Some(pos) = rest.find("name:") {
         let before_ok = pos == 0 || {
@@ -69,12 +89,12 @@ fn declares_name(line: &str, name: &str) -> bool {
             .chars()
             .take_while(|c| !matches!(c, ',' | '}' | '"' | '\'' | ' ' | '\t'))
             .collect();
-        if before_ok && value == name {
-            return true;
+        if before_ok {
+            out.push(value);
         }
         rest = &rest[pos + 5..];
     }
-    false
+    out
 }
 
 /// The name of the element whose declaration spans `line` (1-based), for messages about unknown keys.

@@ -194,6 +194,9 @@ struct SettingFlags {
     /// Most steps (accepted and rejected) the run may take.
     #[arg(long = "step-budget")]
     step_budget: Option<u64>,
+    /// LU for the Jacobian: auto (dense up to 64 unknowns, sparse above), dense or sparse.
+    #[arg(long = "linear-solver", value_parser = named::<ringtrue::settings::Backend>)]
+    linear_solver: Option<ringtrue::settings::Backend>,
 }
 
 impl SettingFlags {
@@ -210,6 +213,7 @@ impl SettingFlags {
             restart: self.restart,
             start: self.start,
             step_budget: self.step_budget,
+            linear_solver: self.linear_solver,
         }
     }
 }

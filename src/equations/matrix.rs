@@ -30,6 +30,17 @@ pub enum Backend {
     Sparse,
 }
 
+impl Backend {
+    pub const ALL: [Backend; 3] = [Backend::Auto, Backend::Dense, Backend::Sparse];
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Backend::Auto => "auto",
+            Backend::Dense => "dense",
+            Backend::Sparse => "sparse",
+        }
+    }
+}
+
 #[derive(Debug, Clone, Default, PartialEq)]
 struct Row {
     cols: Vec<usize>,

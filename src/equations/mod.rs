@@ -716,6 +716,11 @@ fn mark_loop_capacitors(
         a
     }
     let id = |s: &str| if s == ground { 0 } else { node_index[s] + 1 };
+    let terminals: HashMap<&str, &[String; 2]> = circuit
+        .elements
+        .iter()
+        .filter_map(|e| e.kind.terminals().map(|t| (e.name.as_str(), t)))
+        .collect();
     for e in &circuit.elements {
         if let ElementKind::VoltageSource { nodes, .. }
         | ElementKind::Vcvs { nodes, .. }
@@ -729,10 +734,7 @@ fn mark_loop_capacitors(
         }
     }
     for h in held.iter_mut() {
-        let nodes = circuit
-            .element(&h.element)
-            .and_then(|e| e.kind.terminals())
-            .expect("capacitors have terminals");
+        let nodes = terminals[h.element.as_str()];
         let (ra, rb) = (
             find(&mut parent, id(&nodes[0])),
             find(&mut parent, id(&nodes[1])),

@@ -267,6 +267,7 @@ pub fn simulate_system(
     let clock = Instant::now();
     let sc = &settings.steps;
     let mut start_newton = Newton::for_system(sys);
+    start_newton.set_backend(settings.linear_solver);
     let x0 = initial_state(sys, settings, &mut start_newton)?;
     let n = sys.size();
     let mut q0 = vec![0.0; n];
@@ -288,7 +289,11 @@ pub fn simulate_system(
 
     let mut solver = Solver {
         sys,
-        newton: Newton::for_system(sys),
+        newton: {
+            let mut nw = Newton::for_system(sys);
+            nw.set_backend(settings.linear_solver);
+            nw
+        },
         tol: NewtonTolerances::from_step_tolerances(&settings.tolerances, 30),
         cur: Point {
             t: 0.0,
@@ -431,7 +436,7 @@ pub fn simulate_system(
                     let ratio = norm.ratio(&err, &solver.cur.x, &trial.point.x);
                     let factor = step_factor(ratio, p, sc.safety);
                     if ratio <= 1.0 {
-                        (vec![trial.point], base * factor.min(sc.growth_limit))
+                        (vec![trial.point], held(base, factor, sc))
                     } else {
                         stats.rejected_steps += 1;
                         h = base * factor.clamp(sc.shrink_limit, 0.9);
@@ -443,7 +448,7 @@ pub fn simulate_system(
                     let used = methods::method(trial.used);
                     match double_check(&mut solver, used, &trial, hh, &norm, sc.safety) {
                         Ok(Doubled::Accept { mid, end, factor }) => {
-                            (vec![mid, end], hh / 2.0 * factor.min(sc.growth_limit))
+                            (vec![mid, end], held(hh / 2.0, factor, sc))
                         }
                         Ok(Doubled::Reject { factor }) => {
                             stats.rejected_steps += 1;
@@ -514,6 +519,17 @@ pub fn simulate_system(
         peak_voltage: norm.peak_v,
         peak_current: norm.peak_i,
     })
+}
+
+/// The next step after an accepted step `h` whose error allows growth by `factor`: at most
+/// `growth_limit` times longer, and `h` itself when the growth would be less than `hold_growth` (a
+/// linear circuit then reuses its factored Jacobian).
+fn held(h: f64, factor: f64, sc: &crate::settings::StepControl) -> f64 {
+    if factor >= 1.0 && factor < sc.hold_growth {
+        h
+    } else {
+        h * factor.min(sc.growth_limit)
+    }
 }
 
 /// The factor by which the step that produced error ratio `ratio` should change.

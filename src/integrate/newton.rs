@@ -109,6 +109,16 @@ impl Newton {
         }
     }
 
+    /// Chooses the dense or sparse LU (and forgets cached factorizations).
+    pub fn set_backend(&mut self, backend: crate::equations::matrix::Backend) {
+        self.jac.set_backend(backend);
+        self.forget();
+    }
+
+    pub fn backend(&self) -> crate::equations::matrix::Backend {
+        self.jac.backend()
+    }
+
     /// The factorization used by the last iteration (for error estimates that need the Jacobian).
     pub fn last_factorization(&self) -> Option<&Lu> {
         if self.last_used == usize::MAX {
@@ -128,10 +138,12 @@ impl Newton {
     ) -> Result<(), NewtonFailure> {
         let n = eq.size();
         if self.f.len() != n {
+            let backend = self.jac.backend();
             *self = Newton {
                 work: self.work,
                 ..Newton::new(n)
             };
+            self.jac.set_backend(backend);
         }
         let key = eq.jacobian_key();
         let mut update_ok = false;

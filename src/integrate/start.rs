@@ -217,6 +217,7 @@ pub fn initial_conditions(
         x[h.unknown] = h.current;
     }
     let mut local = Newton::new(eq.size());
+    local.set_backend(newton.backend());
     let result = local.solve(&eq, &mut x, tol);
     newton.work.newton_iterations += local.work.newton_iterations;
     newton.work.factorizations += local.work.factorizations;
