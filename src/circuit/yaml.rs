@@ -54,7 +54,9 @@ impl ElementLines {
         let mut in_elements = false;
         for (i, line) in text.lines().enumerate() {
             let trimmed = line.trim_start();
-            if !line.starts_with([' ', '\t', '-']) && !trimmed.is_empty() && !trimmed.starts_with('#')
+            if !line.starts_with([' ', '\t', '-'])
+                && !trimmed.is_empty()
+                && !trimmed.starts_with('#')
             {
                 in_elements = trimmed.starts_with("elements:");
             }

@@ -232,7 +232,7 @@ impl Matrix {
     /// LU factorization. A matrix singular in some unknown reports that unknown's column.
     pub fn factor(&self) -> Result<Lu, Singular> {
         if self.uses_sparse() {
-            self.factor_sparse().map(Lu::Sparse)
+            self.factor_sparse().map(|s| Lu::Sparse(Box::new(s)))
         } else {
             self.factor_dense().map(Lu::Dense)
         }
@@ -333,9 +333,13 @@ impl Matrix {
             );
             if let Err(e) = result {
                 let column = match e {
-                    faer::sparse::linalg::LuError::SymbolicSingular { index } => {
-                        symbolic.col_perm().arrays().0.get(index).copied().unwrap_or(0)
-                    }
+                    faer::sparse::linalg::LuError::SymbolicSingular { index } => symbolic
+                        .col_perm()
+                        .arrays()
+                        .0
+                        .get(index)
+                        .copied()
+                        .unwrap_or(0),
                     faer::sparse::linalg::LuError::Generic(_) => 0,
                 };
                 return Err(Singular { column });
@@ -380,7 +384,8 @@ impl SparsePlan {
             }
         }
         let pattern = SymbolicSparseColMatRef::new_checked(n, n, &col_ptr, None, &row_idx);
-        let symbolic = factorize_symbolic_lu(pattern, Default::default()).map_err(|e| format!("{e:?}"));
+        let symbolic =
+            factorize_symbolic_lu(pattern, Default::default()).map_err(|e| format!("{e:?}"));
         SparsePlan {
             col_ptr,
             row_idx,
@@ -400,7 +405,7 @@ impl SparsePlan {
 #[derive(Debug, Clone)]
 pub enum Lu {
     Dense(DenseLu),
-    Sparse(SparseLu),
+    Sparse(Box<SparseLu>),
 }
 
 impl Lu {
@@ -469,9 +474,7 @@ impl SparseLu {
 
     fn solve(&self, b: &mut [f64]) {
         let lu = self.lu_ref();
-        let req = lu
-            .symbolic()
-            .solve_in_place_scratch::<f64>(1, Par::Seq);
+        let req = lu.symbolic().solve_in_place_scratch::<f64>(1, Par::Seq);
         let mut buf = MemBuffer::new(req);
         let n = b.len();
         let rhs = MatMut::from_column_major_slice_mut(b, n, 1);

@@ -15,5 +15,6 @@ mod report;
 mod ringing;
 mod shipped;
 mod signoff;
+mod sparse;
 mod stability;
 mod validation;
