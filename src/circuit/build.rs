@@ -95,9 +95,12 @@ pub(super) fn build(raw: RawCircuit, text: &str, file: &str) -> Result<Circuit, 
     let mut names = HashSet::new();
     let mut seen: std::collections::HashMap<&str, usize> = std::collections::HashMap::new();
     let mut elements = Vec::with_capacity(raw.elements.len());
+    let declared = yaml::element_lines(text);
     for re in &raw.elements {
         let nth = seen.entry(re.name.as_str()).or_insert(0);
-        let line = yaml::element_line_nth(text, &re.name, *nth);
+        let line = declared
+            .get(re.name.as_str())
+            .and_then(|lines| lines.get(*nth).copied());
         *nth += 1;
         let subject = Some(format!("element {}", re.name));
         if re.name.is_empty() || re.name.contains('.') || re.name.contains(char::is_whitespace) {

@@ -4,6 +4,7 @@
 //! serde_norway) can replace it by editing this file alone.
 
 use serde::de::DeserializeOwned;
+use std::collections::HashMap;
 
 /// A parse failure with the position the parser reported (1-based line and column).
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -38,26 +39,40 @@ pub fn element_line(text: &str, name: &str) -> Option<usize> {
 
 /// The line of the `nth` (0-based) declaration of an element called `name`, for duplicated names.
 pub fn element_line_nth(text: &str, name: &str, nth: usize) -> Option<usize> {
-    let mut seen = 0;
+    element_lines(text)
+        .get(name)
+        .and_then(|lines| lines.get(nth).copied())
+}
+
+/// Every element name declared inside `elements:` with the 1-based lines that declare it, in order,
+/// from one pass over the text (looking each name up separately would read the file once per element).
+pub fn element_lines(text: &str) -> HashMap<String, Vec<usize>> {
+    let mut out: HashMap<String, Vec<usize>> = HashMap::new();
     let mut in_elements = false;
     for (i, line) in text.lines().enumerate() {
         let trimmed = line.trim_start();
         if !line.starts_with([' ', '\t', '-']) && !trimmed.is_empty() && !trimmed.starts_with('#') {
             in_elements = trimmed.starts_with("elements:");
         }
-        if in_elements && declares_name(line, name) {
-            if seen == nth {
-                return Some(i + 1);
+        if in_elements {
+            let mut names = declared_names(line);
+            names.dedup();
+            for n in names {
+                let lines = out.entry(n).or_default();
+                if lines.last() != Some(&(i + 1)) {
+                    lines.push(i + 1);
+                }
             }
-            seen += 1;
         }
     }
-    None
+    out
 }
 
-fn declares_name(line: &str, name: &str) -> bool {
+/// The values written after `name:` on one line, outside comments.
+fn declared_names(line: &str) -> Vec<String> {
     let code = line.split('#').next().unwrap_or("");
     let mut rest = code;
+    let mut out = Vec::new();
     while let Some(pos) = rest.find("name:") {
         let before_ok = pos == 0 || {
             let c = rest.as_bytes()[pos - 1];
@@ -69,12 +84,12 @@ fn declares_name(line: &str, name: &str) -> bool {
             .chars()
             .take_while(|c| !matches!(c, ',' | '}' | '"' | '\'' | ' ' | '\t'))
             .collect();
-        if before_ok && value == name {
-            return true;
+        if before_ok {
+            out.push(value);
         }
         rest = &rest[pos + 5..];
     }
-    false
+    out
 }
 
 /// The name of the element whose declaration spans `line` (1-based), for messages about unknown keys.
@@ -136,6 +151,10 @@ mod tests {
         assert_eq!(element_line(TEXT, "r1"), Some(3));
         assert_eq!(element_line(TEXT, "c1"), Some(5));
         assert_eq!(element_line(TEXT, "x"), None);
+        let dup = "elements:\n  - { name: r1 }\n  - { name: r2 }\n  - { name: r1 }\n";
+        assert_eq!(element_line_nth(dup, "r1", 0), Some(2));
+        assert_eq!(element_line_nth(dup, "r1", 1), Some(4));
+        assert_eq!(element_line_nth(dup, "r1", 2), None);
         assert_eq!(element_at_line(TEXT, 3).as_deref(), Some("r1"));
         assert_eq!(element_at_line(TEXT, 7).as_deref(), Some("c1"));
         assert_eq!(element_at_line(TEXT, 4).as_deref(), Some("c1"));
