@@ -11,6 +11,7 @@ pub mod circuit;
 pub mod detect;
 pub mod diagnose;
 pub mod equations;
+pub mod generate;
 pub mod integrate;
 pub mod output;
 pub mod poles;

@@ -520,3 +520,49 @@ pub fn inspect(wave: &Path, signal: &str, target: f64, json: Option<&Path>) -> R
     }
     Ok(())
 }
+
+pub fn generate(network: &ringtrue::generate::Network, out: Option<&Path>) -> Result<(), Failure> {
+    use ringtrue::generate::{self, GenerateError, Network};
+    use ringtrue::units::engineering;
+    let g = generate::generate(network).map_err(|e| {
+        let flag = match (&e, network) {
+            (GenerateError::Count { .. }, Network::Ladder { .. }) => "--stages",
+            (GenerateError::Count { .. }, Network::Mesh { .. }) => "--size",
+            (GenerateError::Count { .. }, Network::Line { .. }) => "--sections",
+            (GenerateError::Value { what, .. }, _) => match *what {
+                "resistance" => "--resistance",
+                "capacitance" => "--capacitance",
+                "inductance" => "--inductance",
+                _ => "--inductance and --capacitance",
+            },
+            (GenerateError::Time { .. }, _) => "the values",
+        };
+        Failure::BadInput(anyhow!("generate: {flag}: {e}"))
+    })?;
+    match out {
+        Some(path) => write_atomic(path, &g.text)?,
+        None => {
+            use std::io::Write;
+            let mut stdout = std::io::stdout().lock();
+            stdout
+                .write_all(g.text.as_bytes())
+                .and_then(|()| stdout.flush())
+                .map_err(|e| Failure::NotMet(anyhow!("cannot write to standard output: {e}")))?;
+        }
+    }
+    let timing = match (g.slowest_time_constant, g.delay) {
+        (Some(tau), _) => format!("slowest time constant {}s", engineering(tau)),
+        (None, Some(d)) => format!("one-way delay {}s", engineering(d)),
+        (None, None) => String::new(),
+    };
+    eprintln!(
+        "{}{}: {} nodes, {} elements, {timing}, stop {}s, watching {}",
+        out.map_or(String::new(), |p| format!("wrote {}: ", p.display())),
+        g.name,
+        g.nodes,
+        g.elements,
+        engineering(g.stop),
+        g.watched
+    );
+    Ok(())
+}

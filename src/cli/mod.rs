@@ -137,6 +137,113 @@ enum Command {
         #[arg(long, value_parser = clap::value_parser!(u32).range(1..=1024))]
         jobs: Option<u32>,
     },
+    /// Write a benchmark circuit file: an RC ladder, an RC mesh or an LC line, driven by a 1 V step,
+    /// with the stop time worked out from the network.
+    Generate {
+        #[command(subcommand)]
+        network: GenerateCommand,
+    },
+}
+
+#[derive(Subcommand, Debug)]
+enum GenerateCommand {
+    /// N stages of a series resistance and a capacitance to ground, driven at node `in`; the far end
+    /// is watched and the run stops at five times the slowest time constant.
+    Ladder {
+        /// Number of stages (1 to 1000000).
+        #[arg(long, value_name = "N")]
+        stages: usize,
+        /// Series resistance of each stage, e.g. 1k or 50ohm.
+        #[arg(long, value_parser = resistance_value, default_value = "1k", allow_hyphen_values = true)]
+        resistance: f64,
+        /// Capacitance of each stage to ground, e.g. 1p.
+        #[arg(long, value_parser = capacitance_value, default_value = "1p", allow_hyphen_values = true)]
+        capacitance: f64,
+        /// Where to write the circuit file (default: standard output).
+        #[arg(long, value_name = "FILE")]
+        out: Option<PathBuf>,
+    },
+    /// A K x K grid with a resistance between neighbours and a capacitance from every node to ground,
+    /// driven at one corner through one resistance; the opposite corner is watched and the run stops
+    /// at five times the slowest time constant.
+    Mesh {
+        /// Nodes along each side (2 to 1000).
+        #[arg(long, value_name = "K")]
+        size: usize,
+        /// Resistance between neighbours (and of the drive), e.g. 1k.
+        #[arg(long, value_parser = resistance_value, default_value = "1k", allow_hyphen_values = true)]
+        resistance: f64,
+        /// Capacitance of each node to ground, e.g. 1p.
+        #[arg(long, value_parser = capacitance_value, default_value = "1p", allow_hyphen_values = true)]
+        capacitance: f64,
+        /// Where to write the circuit file (default: standard output).
+        #[arg(long, value_name = "FILE")]
+        out: Option<PathBuf>,
+    },
+    /// N sections of a series inductance and a shunt capacitance, driven through and terminated in
+    /// sqrt(L / C); the far end is watched, the edge rises over ten section delays sqrt(L C) and the
+    /// run stops after the rise plus three one-way delays.
+    Line {
+        /// Number of sections (1 to 1000000).
+        #[arg(long, value_name = "N")]
+        sections: usize,
+        /// Series inductance of each section, e.g. 2.5n.
+        #[arg(long, value_parser = inductance_value, default_value = "2.5n", allow_hyphen_values = true)]
+        inductance: f64,
+        /// Shunt capacitance of each section, e.g. 1p.
+        #[arg(long, value_parser = capacitance_value, default_value = "1p", allow_hyphen_values = true)]
+        capacitance: f64,
+        /// Where to write the circuit file (default: standard output).
+        #[arg(long, value_name = "FILE")]
+        out: Option<PathBuf>,
+    },
+}
+
+impl GenerateCommand {
+    fn split(self) -> (ringtrue::generate::Network, Option<PathBuf>) {
+        use ringtrue::generate::Network;
+        match self {
+            GenerateCommand::Ladder {
+                stages,
+                resistance,
+                capacitance,
+                out,
+            } => (
+                Network::Ladder {
+                    stages,
+                    resistance,
+                    capacitance,
+                },
+                out,
+            ),
+            GenerateCommand::Mesh {
+                size,
+                resistance,
+                capacitance,
+                out,
+            } => (
+                Network::Mesh {
+                    size,
+                    resistance,
+                    capacitance,
+                },
+                out,
+            ),
+            GenerateCommand::Line {
+                sections,
+                inductance,
+                capacitance,
+                out,
+            } => (
+                Network::Line {
+                    sections,
+                    inductance,
+                    capacitance,
+                },
+                out,
+            ),
+        }
+    }
 }
 
 fn time_value(s: &str) -> Result<f64, String> {
@@ -150,6 +257,15 @@ fn volt_value(s: &str) -> Result<f64, String> {
 }
 fn amp_value(s: &str) -> Result<f64, String> {
     parse_value(s, Quantity::Current).map_err(|e| e.to_string())
+}
+fn resistance_value(s: &str) -> Result<f64, String> {
+    parse_value(s, Quantity::Resistance).map_err(|e| e.to_string())
+}
+fn capacitance_value(s: &str) -> Result<f64, String> {
+    parse_value(s, Quantity::Capacitance).map_err(|e| e.to_string())
+}
+fn inductance_value(s: &str) -> Result<f64, String> {
+    parse_value(s, Quantity::Inductance).map_err(|e| e.to_string())
 }
 fn named<T: std::str::FromStr<Err = ringtrue::settings::UnknownName>>(
     s: &str,
@@ -285,6 +401,10 @@ pub fn run() -> i32 {
             out,
             jobs,
         } => signoff::signoff(project.as_deref(), verify.as_deref(), out.as_deref(), jobs),
+        Command::Generate { network } => {
+            let (network, out) = network.split();
+            commands::generate(&network, out.as_deref())
+        }
     };
     match result {
         Ok(()) => 0,

@@ -8,6 +8,7 @@ mod common;
 mod conservation;
 mod detectors;
 mod diode;
+mod generate;
 mod order;
 mod poles;
 mod reference_data;
