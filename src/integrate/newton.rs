@@ -71,6 +71,9 @@ const ROUNDING: f64 = 64.0 * f64::EPSILON;
 /// How many constant-Jacobian factorizations are kept (TR-BDF2's two stages and step doubling's two
 /// step sizes alternate).
 const CACHE_SLOTS: usize = 4;
+/// Sparse factorizations of large circuits hold most of a run's memory: two slots cover the two step
+/// sizes of step doubling and the single coefficient of every method's stages.
+const SPARSE_CACHE_SLOTS: usize = 2;
 
 /// Newton's reusable storage and its cached factorization.
 #[derive(Debug, Clone)]
@@ -176,7 +179,12 @@ impl Newton {
                 self.work.factorizations += 1;
                 match key {
                     Some(kk) => {
-                        if self.cache.len() == CACHE_SLOTS {
+                        let slots = if self.jac.uses_sparse() {
+                            SPARSE_CACHE_SLOTS
+                        } else {
+                            CACHE_SLOTS
+                        };
+                        if self.cache.len() >= slots {
                             self.cache.remove(0);
                         }
                         self.cache.push((kk, lu));
