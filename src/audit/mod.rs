@@ -7,6 +7,7 @@
 pub mod measure;
 pub mod plan;
 pub mod results;
+pub mod shard;
 
 use crate::circuit::Circuit;
 use crate::integrate::{self, Stats, Trajectory};
@@ -196,13 +197,7 @@ pub fn run(
 ) -> Result<Audit, AuditError> {
     plan.validate()?;
     let jobs = options.jobs.max(1);
-    let pool = rayon::ThreadPoolBuilder::new()
-        .num_threads(jobs)
-        .build()
-        .map_err(|e| AuditError::Threads {
-            jobs,
-            message: e.to_string(),
-        })?;
+    let pool = pool(jobs)?;
     let overrides = plan.overrides();
     let target = plan.target;
     // Everything, the reference included, runs on a pool of exactly `jobs` threads.
@@ -219,8 +214,30 @@ pub fn run(
                 .collect();
             Ok((prepared, cells))
         })?;
+    Ok(assemble(circuit, plan, prepared, cells, jobs))
+}
 
-    let (recommendation, recommendation_reason) = recommend(&cells, target);
+/// A rayon pool of exactly `jobs` threads.
+pub(crate) fn pool(jobs: usize) -> Result<rayon::ThreadPool, AuditError> {
+    rayon::ThreadPoolBuilder::new()
+        .num_threads(jobs)
+        .build()
+        .map_err(|e| AuditError::Threads {
+            jobs,
+            message: e.to_string(),
+        })
+}
+
+/// The audit from its measured cells (in plan order): the recommendation and the per-method summaries.
+/// Shared by [`run`] and by merging shards, so both give the same audit from the same cells.
+pub fn assemble(
+    circuit: &Circuit,
+    plan: &Plan,
+    prepared: Prepared,
+    cells: Vec<CellResult>,
+    threads: usize,
+) -> Audit {
+    let (recommendation, recommendation_reason) = recommend(&cells, plan.target);
     let methods = summarize_methods(plan, &cells);
     let Prepared {
         reference,
@@ -228,32 +245,65 @@ pub fn run(
         peaks,
         poles,
     } = prepared;
-    Ok(Audit {
+    Audit {
         circuit: circuit.name.clone(),
         labels,
         reference,
         peaks,
         plan: plan.clone(),
-        target,
+        target: plan.target,
         cells,
         recommendation,
         recommendation_reason,
         methods,
-        threads: jobs,
+        threads,
         poles,
-    })
+    }
 }
 
-/// Runs one cell and measures it against the prepared reference, with the detectors.
-pub fn run_cell(
-    circuit: &Circuit,
-    prepared: &Prepared,
-    o: &Overrides,
-    target: f64,
-    cell_seconds: f64,
-) -> CellResult {
+/// What one cell's run left behind, before it is measured: everything a shard stores.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CellRun {
+    /// `None` when the engine ran to the stop time; its error message when it did not.
+    pub failure: Option<String>,
+    pub stats: Stats,
+    /// The watched signals at every accepted step (`None` when the run failed).
+    pub trajectory: Option<Trajectory>,
+}
+
+/// Runs one cell's setting on the engine, without measuring it.
+pub fn simulate_cell(circuit: &Circuit, o: &Overrides, cell_seconds: f64) -> (Settings, CellRun) {
+    let settings = settings_for_cell(circuit, o, cell_seconds);
+    let run = match integrate::simulate(circuit, &settings) {
+        Ok(r) => CellRun {
+            failure: None,
+            stats: r.stats,
+            trajectory: Some(r.trajectory),
+        },
+        Err(e) => CellRun {
+            failure: Some(e.to_string()),
+            stats: Stats::default(),
+            trajectory: None,
+        },
+    };
+    (settings, run)
+}
+
+/// A cell's settings with its wall-clock budget.
+pub fn settings_for_cell(circuit: &Circuit, o: &Overrides, cell_seconds: f64) -> Settings {
     let mut settings = cell_settings(circuit, o);
     settings.steps.time_budget = Some(cell_seconds);
+    settings
+}
+
+/// Measures one cell's run against the prepared reference, with the detectors.
+pub fn measure_cell(
+    prepared: &Prepared,
+    o: &Overrides,
+    settings: Settings,
+    run: CellRun,
+    target: f64,
+) -> CellResult {
     let failed = |failure: String, stats: Stats| CellResult {
         overrides: *o,
         settings,
@@ -265,12 +315,13 @@ pub fn run_cell(
         flags: Vec::new(),
         trajectory: None,
     };
-    let run = match integrate::simulate(circuit, &settings) {
-        Ok(r) => r,
-        Err(e) => return failed(e.to_string(), Stats::default()),
+    let trajectory = match (run.failure, run.trajectory) {
+        (None, Some(t)) => t,
+        (Some(f), _) => return failed(f, run.stats),
+        (None, None) => return failed("the run left no waveform".into(), run.stats),
     };
-    let at_cell = prepared.reference.evaluate(&run.trajectory.times);
-    let errors = measure::signal_errors(&run.trajectory, &at_cell, &prepared.peaks);
+    let at_cell = prepared.reference.evaluate(&trajectory.times);
+    let errors = measure::signal_errors(&trajectory, &at_cell, &prepared.peaks);
     let max_error = errors.iter().map(|e| e.max_error).fold(0.0f64, f64::max);
     if !max_error.is_finite() {
         return failed(
@@ -278,7 +329,7 @@ pub fn run_cell(
             run.stats,
         );
     }
-    let flags = detect_flags(&run.trajectory, &at_cell, prepared, target, settings.method);
+    let flags = detect_flags(&trajectory, &at_cell, prepared, target, settings.method);
     let meets_target = max_error <= target && !flags.iter().any(|f| f.kind.disqualifies());
     CellResult {
         overrides: *o,
@@ -289,8 +340,20 @@ pub fn run_cell(
         stats: run.stats,
         meets_target,
         flags,
-        trajectory: Some(run.trajectory),
+        trajectory: Some(trajectory),
     }
+}
+
+/// Runs one cell and measures it against the prepared reference, with the detectors.
+pub fn run_cell(
+    circuit: &Circuit,
+    prepared: &Prepared,
+    o: &Overrides,
+    target: f64,
+    cell_seconds: f64,
+) -> CellResult {
+    let (settings, run) = simulate_cell(circuit, o, cell_seconds);
+    measure_cell(prepared, o, settings, run, target)
 }
 
 /// Every detector on every watched signal of a run.
