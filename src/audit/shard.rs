@@ -316,9 +316,9 @@ impl Reader<'_> {
     fn at<'v>(&self, v: &'v Value, path: &[&str]) -> Result<&'v Value, ShardError> {
         let mut cur = v;
         for key in path {
-            cur = cur
-                .get(key)
-                .ok_or_else(|| (self.corrupt)(format!("the field `{}` is missing", path.join("."))))?;
+            cur = cur.get(key).ok_or_else(|| {
+                (self.corrupt)(format!("the field `{}` is missing", path.join(".")))
+            })?;
         }
         Ok(cur)
     }
@@ -447,7 +447,9 @@ pub fn check<'a>(shards: &'a [(String, Shard)]) -> Result<Vec<&'a (String, Shard
             || a.sources.circuit_text != f.sources.circuit_text
         {
             Some("circuit file")
-        } else if a.sources.plan_file.as_ref().map(|p| &p.1) != f.sources.plan_file.as_ref().map(|p| &p.1) {
+        } else if a.sources.plan_file.as_ref().map(|p| &p.1)
+            != f.sources.plan_file.as_ref().map(|p| &p.1)
+        {
             Some("plan file")
         } else if a.sources.target.map(f64::to_bits) != f.sources.target.map(f64::to_bits) {
             Some("--target")
@@ -485,7 +487,10 @@ pub fn check<'a>(shards: &'a [(String, Shard)]) -> Result<Vec<&'a (String, Shard
     }
     let mut ordered = Vec::with_capacity(count);
     for (k, slot) in by_index.into_iter().enumerate() {
-        let spec = ShardSpec { index: k + 1, count };
+        let spec = ShardSpec {
+            index: k + 1,
+            count,
+        };
         let Some(entry) = slot else {
             return Err(ShardError::Missing {
                 index: k + 1,
@@ -578,7 +583,9 @@ mod tests {
             ShardSpec::parse("2/8").unwrap(),
             ShardSpec { index: 2, count: 8 }
         );
-        for bad in ["0/3", "4/3", "a/b", "3", "", "/", "1/0", "-1/3", "1/3/4", "+1/3"] {
+        for bad in [
+            "0/3", "4/3", "a/b", "3", "", "/", "1/0", "-1/3", "1/3/4", "+1/3",
+        ] {
             assert!(ShardSpec::parse(bad).is_err(), "{bad}");
         }
     }
@@ -621,7 +628,10 @@ mod tests {
             let back = read_float(&serde_json::from_str(&text).unwrap()).unwrap();
             assert_eq!(back.to_bits(), x.to_bits(), "{x:e} wrote {text}");
         }
-        let nan = read_float(&serde_json::from_str(&serde_json::to_string(&float(f64::NAN)).unwrap()).unwrap()).unwrap();
+        let nan = read_float(
+            &serde_json::from_str(&serde_json::to_string(&float(f64::NAN)).unwrap()).unwrap(),
+        )
+        .unwrap();
         assert!(nan.is_nan());
         // A pseudo-random sweep over bit patterns (xorshift64, Marsaglia 2003).
         let mut s = 0x9E37_79B9_7F4A_7C15u64;

@@ -263,65 +263,105 @@ pub fn command_line() -> String {
         .join(" ")
 }
 
-fn load_plan(c: &Circuit, plan_file: Option<&Path>) -> Result<ringtrue::audit::Plan, Failure> {
+/// The plan file's name and text, when one is given.
+fn read_plan_file(plan_file: Option<&Path>) -> Result<Option<(String, String)>, Failure> {
+    plan_file
+        .map(|p| {
+            std::fs::read_to_string(p)
+                .map(|text| (p.display().to_string(), text))
+                .map_err(|e| Failure::BadInput(anyhow!("cannot read {}: {e}", p.display())))
+        })
+        .transpose()
+}
+
+/// The audit's plan: the plan file's (name, text) when given, else the circuit's own, then `--target`.
+fn plan_from_sources(
+    c: &Circuit,
+    plan_file: Option<(&str, &str)>,
+    target: Option<f64>,
+) -> Result<ringtrue::audit::Plan, Failure> {
     use ringtrue::audit::Plan;
     use ringtrue::circuit::raw::RawPlan;
-    match plan_file {
-        Some(p) => {
-            let text = std::fs::read_to_string(p)
-                .map_err(|e| Failure::BadInput(anyhow!("cannot read {}: {e}", p.display())))?;
-            let raw: RawPlan = ringtrue::circuit::yaml::from_str(&text).map_err(|e| {
+    let mut plan = match plan_file {
+        Some((name, text)) => {
+            let raw: RawPlan = ringtrue::circuit::yaml::from_str(text).map_err(|e| {
                 Failure::BadInput(anyhow!(
-                    "{}:{}: {}; the plan file holds the plan map (methods, rtol, atol_v, atol_i, lte_factor, max_step, fixed_step, restart, scale, step_budget, target)",
-                    p.display(),
+                    "{name}:{}: {}; the plan file holds the plan map (methods, rtol, atol_v, atol_i, lte_factor, max_step, fixed_step, restart, scale, step_budget, target)",
                     e.line.map_or(String::new(), |l| l.to_string()),
                     e.message
                 ))
             })?;
-            Plan::from_raw(&raw).map_err(|e| Failure::BadInput(anyhow!("{}: {e}", p.display())))
+            Plan::from_raw(&raw).map_err(|e| Failure::BadInput(anyhow!("{name}: {e}")))?
         }
         None => match &c.plan {
             Some(raw) => {
-                Plan::from_raw(raw).map_err(|e| Failure::BadInput(anyhow!("{}: {e}", c.file)))
+                Plan::from_raw(raw).map_err(|e| Failure::BadInput(anyhow!("{}: {e}", c.file)))?
             }
-            None => Ok(Plan::default()),
+            None => Plan::default(),
         },
-    }
-}
-
-pub fn audit(
-    file: &Path,
-    out: Option<&Path>,
-    jobs: Option<u32>,
-    target: Option<f64>,
-    plan_file: Option<&Path>,
-    cell_seconds: f64,
-) -> Result<(), Failure> {
-    use ringtrue::audit::{self, results};
-    let (c, bytes) = load_with_text(file)?;
-    let mut plan = load_plan(&c, plan_file)?;
+    };
     if let Some(t) = target {
         plan.target = t;
     }
     plan.validate()
         .map_err(|e| Failure::BadInput(anyhow!("{e}")))?;
-    if !(cell_seconds.is_finite() && cell_seconds > 0.0) {
+    Ok(plan)
+}
+
+fn jobs_or_cores(jobs: Option<u32>) -> usize {
+    jobs.map(|j| j as usize)
+        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
+}
+
+/// How `audit` was asked to run.
+pub struct AuditRequest<'a> {
+    pub file: &'a Path,
+    pub out: Option<&'a Path>,
+    pub jobs: Option<u32>,
+    pub target: Option<f64>,
+    pub plan_file: Option<&'a Path>,
+    pub cell_seconds: f64,
+    pub shard: Option<ringtrue::audit::shard::ShardSpec>,
+}
+
+pub fn audit(r: &AuditRequest) -> Result<(), Failure> {
+    use ringtrue::audit::{self, results};
+    let (c, bytes) = load_with_text(r.file)?;
+    let plan_src = read_plan_file(r.plan_file)?;
+    let plan = plan_from_sources(
+        &c,
+        plan_src.as_ref().map(|(n, t)| (n.as_str(), t.as_str())),
+        r.target,
+    )?;
+    if !(r.cell_seconds.is_finite() && r.cell_seconds > 0.0) {
         return Err(Failure::BadInput(anyhow!(
             "--cell-seconds must be a positive number of seconds"
         )));
     }
-    let jobs = jobs
-        .map(|j| j as usize)
-        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
-    let dir = out
+    let jobs = jobs_or_cores(r.jobs);
+    let dir = r
+        .out
         .map(Path::to_path_buf)
         .unwrap_or_else(|| Path::new("reports").join(&c.name));
+    let options = audit::Options {
+        jobs,
+        cell_seconds: r.cell_seconds,
+    };
+    let sha = results::sha256_hex(&bytes);
+    if let Some(spec) = r.shard {
+        let sources = audit::shard::Sources {
+            circuit_file: c.file.clone(),
+            circuit_text: String::from_utf8(bytes).expect("load_with_text checked UTF-8"),
+            circuit_sha256: sha,
+            plan_file: plan_src,
+            target: r.target,
+        };
+        return audit_shard(&c, &plan, spec, &options, sources, &dir);
+    }
     let bar = super::progress::Progress::new(plan.size() as u64);
-    let options = audit::Options { jobs, cell_seconds };
     let a = audit::run(&c, &plan, &options, &|failed| bar.cell_done(failed))
         .map_err(|e| Failure::BadInput(anyhow!("{}: {e}", c.file)))?;
     bar.finish();
-    let sha = results::sha256_hex(&bytes);
     let created = now_utc();
     let command = command_line();
     let prov = results::Provenance {
@@ -332,10 +372,67 @@ pub fn audit(
         command: &command,
         stop: c.run.stop,
     };
-    let json = results::results_json(&a, &prov);
+    write_audit(&a, &c, &prov, &dir)
+}
+
+/// Runs one shard of the plan and writes `DIR/shard-K-of-N.json`.
+fn audit_shard(
+    c: &Circuit,
+    plan: &ringtrue::audit::Plan,
+    spec: ringtrue::audit::shard::ShardSpec,
+    options: &ringtrue::audit::Options,
+    sources: ringtrue::audit::shard::Sources,
+    dir: &Path,
+) -> Result<(), Failure> {
+    use ringtrue::audit::shard;
+    let mine = spec.cells(plan.size()).len() as u64;
+    let bar = super::progress::Progress::new(mine);
+    let cells = shard::run_shard(c, plan, spec, options, &|failed| bar.cell_done(failed))
+        .map_err(|e| Failure::BadInput(anyhow!("{}: {e}", c.file)))?;
+    bar.finish();
+    let failed = cells.iter().filter(|x| x.1.failure.is_some()).count();
+    let s = shard::Shard {
+        version: env!("CARGO_PKG_VERSION").to_string(),
+        spec,
+        sources,
+        cell_seconds: options.cell_seconds,
+        plan_size: plan.size(),
+        created: now_utc(),
+        command: command_line(),
+        threads: options.jobs,
+        cells,
+    };
+    let path = dir.join(spec.file_name());
+    let text = serde_json::to_string(&shard::to_json(&s)).expect("JSON values serialize") + "\n";
+    write_atomic(&path, &text)?;
+    println!(
+        "{}: shard {} of {} ran {} of the plan's {} cells ({failed} failed); wrote {}",
+        c.file,
+        spec.index,
+        spec.count,
+        s.cells.len(),
+        s.plan_size,
+        path.display()
+    );
+    println!(
+        "when all {} shards are done: ringtrue merge {}",
+        spec.count,
+        dir.display()
+    );
+    Ok(())
+}
+
+/// Writes results.json and report.html and prints the summary; the target decides the outcome.
+fn write_audit(
+    a: &ringtrue::audit::Audit,
+    c: &Circuit,
+    prov: &ringtrue::audit::results::Provenance,
+    dir: &Path,
+) -> Result<(), Failure> {
+    let json = ringtrue::audit::results::results_json(a, prov);
     let text = serde_json::to_string_pretty(&json).expect("JSON values serialize") + "\n";
     write_atomic(&dir.join("results.json"), &text)?;
-    let html = ringtrue::report::render(&a, &c, &prov);
+    let html = ringtrue::report::render(a, c, prov);
     write_atomic(&dir.join("report.html"), &html)?;
     let passing = a.cells.iter().filter(|x| x.meets_target).count();
     let failed = a.cells.iter().filter(|x| !x.ok()).count();
@@ -367,6 +464,103 @@ pub fn audit(
             a.target
         )))
     }
+}
+
+/// The shard files named by `inputs`: each a shard file, or a folder whose `shard-*-of-*.json` are taken.
+fn shard_files(inputs: &[std::path::PathBuf]) -> Result<Vec<std::path::PathBuf>, Failure> {
+    let mut files = Vec::new();
+    for input in inputs {
+        if input.is_dir() {
+            let entries = std::fs::read_dir(input).map_err(|e| {
+                Failure::BadInput(anyhow!("cannot list the folder {}: {e}", input.display()))
+            })?;
+            let mut found: Vec<_> = entries
+                .filter_map(Result::ok)
+                .map(|e| e.path())
+                .filter(|p| {
+                    p.file_name().and_then(|n| n.to_str()).is_some_and(|n| {
+                        n.starts_with("shard-") && n.ends_with(".json") && n.contains("-of-")
+                    })
+                })
+                .collect();
+            if found.is_empty() {
+                return Err(Failure::BadInput(anyhow!(
+                    "{} holds no shard files (shard-K-of-N.json); run `ringtrue audit FILE --shard K/N --out {}` first",
+                    input.display(),
+                    input.display()
+                )));
+            }
+            found.sort();
+            files.extend(found);
+        } else if input.is_file() {
+            files.push(input.clone());
+        } else {
+            return Err(Failure::BadInput(anyhow!(
+                "{} is neither a shard file nor a folder of shard files",
+                input.display()
+            )));
+        }
+    }
+    files.dedup();
+    Ok(files)
+}
+
+pub fn merge(
+    inputs: &[std::path::PathBuf],
+    out: Option<&Path>,
+    jobs: Option<u32>,
+) -> Result<(), Failure> {
+    use ringtrue::audit::{results, shard};
+    let files = shard_files(inputs)?;
+    let mut shards = Vec::with_capacity(files.len());
+    for f in &files {
+        let name = f.display().to_string();
+        let text = std::fs::read_to_string(f)
+            .map_err(|e| Failure::BadInput(anyhow!("cannot read {name}: {e}")))?;
+        let s = shard::from_json(&text, &name).map_err(|e| Failure::BadInput(anyhow!("{e}")))?;
+        shards.push((name, s));
+    }
+    let bad = |e: shard::ShardError| Failure::BadInput(anyhow!("{e}"));
+    let ordered = shard::check(&shards).map_err(bad)?;
+    let (first_file, first) = ordered[0];
+    let src = &first.sources;
+    if results::sha256_hex(src.circuit_text.as_bytes()) != src.circuit_sha256 {
+        return Err(Failure::BadInput(anyhow!(
+            "{first_file}: the circuit text does not match its recorded sha256; the shard file was changed, rerun the shard"
+        )));
+    }
+    let c = circuit::parse(&src.circuit_text, &src.circuit_file)
+        .map_err(|e| Failure::BadInput(anyhow!("{first_file}: the circuit it holds: {e}")))?;
+    let plan = plan_from_sources(
+        &c,
+        src.plan_file
+            .as_ref()
+            .map(|(n, t)| (n.as_str(), t.as_str())),
+        src.target,
+    )?;
+    let dir = out
+        .map(Path::to_path_buf)
+        .unwrap_or_else(|| match inputs[0].is_dir() {
+            true => inputs[0].clone(),
+            false => inputs[0]
+                .parent()
+                .map(Path::to_path_buf)
+                .unwrap_or_else(|| Path::new(".").to_path_buf()),
+        });
+    let a = shard::merge(&c, &plan, &shards, jobs_or_cores(jobs))
+        .map_err(|e| Failure::BadInput(anyhow!("{}: {e}", c.file)))?;
+    let created = now_utc();
+    let command = command_line();
+    let sha = src.circuit_sha256.clone();
+    let prov = results::Provenance {
+        file: &c.file,
+        title: &c.title,
+        sha256: &sha,
+        created: &created,
+        command: &command,
+        stop: c.run.stop,
+    };
+    write_audit(&a, &c, &prov, &dir)
 }
 
 pub fn poles(file: &Path, json: Option<&Path>) -> Result<(), Failure> {

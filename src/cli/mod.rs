@@ -66,6 +66,23 @@ enum Command {
         /// Wall-clock budget per cell, in seconds.
         #[arg(long = "cell-seconds", default_value_t = 600.0)]
         cell_seconds: f64,
+        /// Run only shard K of N (cells i with i mod N = K - 1) and write DIR/shard-K-of-N.json for
+        /// `ringtrue merge`, e.g. one array-job task per shard.
+        #[arg(long, value_name = "K/N", value_parser = shard_spec)]
+        shard: Option<ringtrue::audit::shard::ShardSpec>,
+    },
+    /// Combine the shards of a sharded audit (folders of shard-K-of-N.json, or the files) into one
+    /// results.json and report.html, the same as an unsharded audit's apart from timing.
+    Merge {
+        /// Shard files, or folders holding them.
+        #[arg(required = true, value_name = "DIR")]
+        inputs: Vec<PathBuf>,
+        /// Where to write results.json and report.html (default: the first folder given).
+        #[arg(long, value_name = "DIR")]
+        out: Option<PathBuf>,
+        /// Worker threads for measuring the cells (default: every core).
+        #[arg(long, value_parser = clap::value_parser!(u32).range(1..=1024))]
+        jobs: Option<u32>,
     },
     /// Decide whether a ringing signal is the circuit's or the integrator's: rerun the setting with its
     /// step limit halved and quartered and with an L-stable method, and compare.
@@ -334,6 +351,10 @@ impl SettingFlags {
     }
 }
 
+fn shard_spec(s: &str) -> Result<ringtrue::audit::shard::ShardSpec, String> {
+    ringtrue::audit::shard::ShardSpec::parse(s).map_err(|e| e.to_string())
+}
+
 /// How a command ended.
 pub enum Failure {
     /// The input or the usage is wrong (exit 2).
@@ -367,14 +388,17 @@ pub fn run() -> i32 {
             target,
             plan,
             cell_seconds,
-        } => commands::audit(
-            &file,
-            out.as_deref(),
+            shard,
+        } => commands::audit(&commands::AuditRequest {
+            file: &file,
+            out: out.as_deref(),
             jobs,
             target,
-            plan.as_deref(),
+            plan_file: plan.as_deref(),
             cell_seconds,
-        ),
+            shard,
+        }),
+        Command::Merge { inputs, out, jobs } => commands::merge(&inputs, out.as_deref(), jobs),
         Command::Diagnose {
             file,
             signal,

@@ -14,6 +14,7 @@ mod poles;
 mod reference_data;
 mod report;
 mod ringing;
+mod shard;
 mod shipped;
 mod signoff;
 mod sparse;
