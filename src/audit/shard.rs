@@ -431,7 +431,7 @@ fn list(cells: &[usize]) -> String {
 
 /// Checks that `shards` (each with the name of its file) are the complete, consistent set of one
 /// sharded audit, and returns them ordered by shard index.
-pub fn check<'a>(shards: &'a [(String, Shard)]) -> Result<Vec<&'a (String, Shard)>, ShardError> {
+pub fn check(shards: &[(String, Shard)]) -> Result<Vec<&(String, Shard)>, ShardError> {
     let first = shards.first().ok_or(ShardError::Empty)?;
     let expected = env!("CARGO_PKG_VERSION");
     for (file, s) in shards {
@@ -619,7 +619,7 @@ mod tests {
             1.0 / 3.0,
             0.1 + 0.2,
             1e-300 * 3.7,
-            123456789.0123456789,
+            123_456_789.012_345_67,
             f64::INFINITY,
             f64::NEG_INFINITY,
         ];
