@@ -521,8 +521,9 @@ pub fn merge(
         shards.push((name, s));
     }
     let bad = |e: shard::ShardError| Failure::BadInput(anyhow!("{e}"));
-    let ordered = shard::check(&shards).map_err(bad)?;
-    let (first_file, first) = ordered[0];
+    let (first_file, first) = shards
+        .first()
+        .ok_or_else(|| bad(shard::ShardError::Empty))?;
     let src = &first.sources;
     if results::sha256_hex(src.circuit_text.as_bytes()) != src.circuit_sha256 {
         return Err(Failure::BadInput(anyhow!(
@@ -538,6 +539,13 @@ pub fn merge(
             .map(|(n, t)| (n.as_str(), t.as_str())),
         src.target,
     )?;
+    // Before the shard set is checked, so a corrupt plan size cannot ask for a vast cell list.
+    if plan.size() != first.plan_size {
+        return Err(bad(shard::ShardError::PlanSize {
+            plan: plan.size(),
+            shards: first.plan_size,
+        }));
+    }
     let dir = out
         .map(Path::to_path_buf)
         .unwrap_or_else(|| match inputs[0].is_dir() {
