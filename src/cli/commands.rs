@@ -362,17 +362,7 @@ pub fn audit(r: &AuditRequest) -> Result<(), Failure> {
     let a = audit::run(&c, &plan, &options, &|failed| bar.cell_done(failed))
         .map_err(|e| Failure::BadInput(anyhow!("{}: {e}", c.file)))?;
     bar.finish();
-    let created = now_utc();
-    let command = command_line();
-    let prov = results::Provenance {
-        file: &c.file,
-        title: &c.title,
-        sha256: &sha,
-        created: &created,
-        command: &command,
-        stop: c.run.stop,
-    };
-    write_audit(&a, &c, &prov, &dir)
+    write_audit(&a, &c, &sha, &dir)
 }
 
 /// Runs one shard of the plan and writes `DIR/shard-K-of-N.json`.
@@ -422,13 +412,24 @@ fn audit_shard(
     Ok(())
 }
 
-/// Writes results.json and report.html and prints the summary; the target decides the outcome.
+/// Writes results.json and report.html, stamped with this command and the time, and prints the
+/// summary; the target decides the outcome.
 fn write_audit(
     a: &ringtrue::audit::Audit,
     c: &Circuit,
-    prov: &ringtrue::audit::results::Provenance,
+    sha256: &str,
     dir: &Path,
 ) -> Result<(), Failure> {
+    let created = now_utc();
+    let command = command_line();
+    let prov = &ringtrue::audit::results::Provenance {
+        file: &c.file,
+        title: &c.title,
+        sha256,
+        created: &created,
+        command: &command,
+        stop: c.run.stop,
+    };
     let json = ringtrue::audit::results::results_json(a, prov);
     let text = serde_json::to_string_pretty(&json).expect("JSON values serialize") + "\n";
     write_atomic(&dir.join("results.json"), &text)?;
@@ -557,18 +558,7 @@ pub fn merge(
         });
     let a = shard::merge(&c, &plan, &shards, jobs_or_cores(jobs))
         .map_err(|e| Failure::BadInput(anyhow!("{}: {e}", c.file)))?;
-    let created = now_utc();
-    let command = command_line();
-    let sha = src.circuit_sha256.clone();
-    let prov = results::Provenance {
-        file: &c.file,
-        title: &c.title,
-        sha256: &sha,
-        created: &created,
-        command: &command,
-        stop: c.run.stop,
-    };
-    write_audit(&a, &c, &prov, &dir)
+    write_audit(&a, &c, &src.circuit_sha256, &dir)
 }
 
 pub fn poles(file: &Path, json: Option<&Path>) -> Result<(), Failure> {

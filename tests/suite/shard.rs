@@ -95,22 +95,7 @@ fn merged_shards_equal_the_unsharded_audit() {
 
     // Three shards in one folder, one thread each.
     let parts = d.join("parts");
-    for k in 1..=3 {
-        let o = ringtrue(&[
-            "audit",
-            CIRCUIT,
-            "--plan",
-            plan,
-            "--jobs",
-            "1",
-            "--shard",
-            &format!("{k}/3"),
-            "--out",
-            parts.to_str().unwrap(),
-        ]);
-        assert_eq!(o.code, 0, "{}", o.stderr);
-        assert!(parts.join(format!("shard-{k}-of-3.json")).is_file());
-    }
+    run_shards(plan, 3, &["--jobs", "1"], |_| parts.clone());
     let merged = d.join("merged");
     let o = ringtrue(&[
         "merge",
@@ -123,22 +108,10 @@ fn merged_shards_equal_the_unsharded_audit() {
     assert_eq!(report_without_timing(&merged), report_without_timing(&full));
 
     // Five shards (more than some hold) in separate folders, merged into the first folder.
-    let mut dirs = Vec::new();
-    for k in 1..=5 {
-        let dk = d.join(format!("task{k}"));
-        let o = ringtrue(&[
-            "audit",
-            CIRCUIT,
-            "--plan",
-            plan,
-            "--shard",
-            &format!("{k}/5"),
-            "--out",
-            dk.to_str().unwrap(),
-        ]);
-        assert_eq!(o.code, 0, "{}", o.stderr);
-        dirs.push(dk.to_str().unwrap().to_string());
-    }
+    let dirs: Vec<String> = run_shards(plan, 5, &[], |k| d.join(format!("task{k}")))
+        .iter()
+        .map(|p| p.to_str().unwrap().to_string())
+        .collect();
     let mut args = vec!["merge"];
     args.extend(dirs.iter().map(String::as_str));
     let o = ringtrue(&args);
@@ -146,6 +119,28 @@ fn merged_shards_equal_the_unsharded_audit() {
     let first = d.join("task1");
     assert_eq!(results_without_timing(&first), unsharded);
     assert_eq!(report_without_timing(&first), report_without_timing(&full));
+}
+
+/// Runs shards 1..=n of CIRCUIT under `plan`, shard k into `dir(k)`, and returns the folders.
+fn run_shards(
+    plan: &str,
+    n: usize,
+    extra: &[&str],
+    dir: impl Fn(usize) -> std::path::PathBuf,
+) -> Vec<std::path::PathBuf> {
+    (1..=n)
+        .map(|k| {
+            let dk = dir(k);
+            let spec = format!("{k}/{n}");
+            let mut args = vec!["audit", CIRCUIT, "--plan", plan, "--shard", &spec];
+            args.extend_from_slice(extra);
+            args.extend(["--out", dk.to_str().unwrap()]);
+            let o = ringtrue(&args);
+            assert_eq!(o.code, 0, "{}", o.stderr);
+            assert!(dk.join(format!("shard-{k}-of-{n}.json")).is_file());
+            dk
+        })
+        .collect()
 }
 
 /// The exit code the unsharded audit gave, from its results (0 with a recommendation, 1 without).
