@@ -7,15 +7,13 @@
 //! Two factorizations sit behind `factor`, chosen by size:
 //! - up to `DENSE_LIMIT` unknowns, a dense LU with partial pivoting that skips zero multipliers (fast for
 //!   the small circuits most audits run, and with an exact singular-column report);
-//! - above it, faer's sparse LU (fill-reducing column order, partial row pivoting). Its symbolic
-//!   analysis is computed once per pattern and shared by every clone of the matrix; each `factor` repeats
-//!   only the numeric factorization.
+//! - above it, the sparse LU of `sparse_lu` (fill-reducing column order, threshold partial pivoting).
+//!   The column order is computed once per pattern and shared by every clone of the matrix. A matrix
+//!   learns its pivot sequence at its first sparse factorization and each later `factor` only
+//!   refactors with it (no graph search, no pivot search), pivoting anew when a reused pivot is small.
 
-use faer::dyn_stack::{MemBuffer, MemStack};
-use faer::sparse::linalg::lu::{factorize_symbolic_lu, LuRef, NumericLu, SymbolicLu};
-use faer::sparse::{SparseColMatRef, SymbolicSparseColMatRef};
-use faer::{MatMut, Par};
-use std::sync::{Arc, OnceLock};
+use super::sparse_lu::{self, Csc, Factors, Failure, Structure};
+use std::sync::{Arc, Mutex, OnceLock};
 
 /// Matrices with more unknowns than this are factored by the sparse LU. Measured on RC ladders and
 /// meshes with `cargo bench --bench engine -- factor` (see the README's benchmark section).
@@ -55,6 +53,19 @@ pub struct Matrix {
     backend: Backend,
     /// The sparse symbolic analysis of the present pattern; reset when an entry is added to the pattern.
     plan: OnceLock<Arc<SparsePlan>>,
+    /// The pivot sequence this matrix's last sparse factorization used (never shared between clones, so
+    /// that each matrix's factors depend only on its own history).
+    learned: Learned,
+}
+
+/// The pivot sequence of a matrix's last sparse factorization; a clone starts without one.
+#[derive(Debug, Default)]
+struct Learned(Mutex<Option<Arc<Structure>>>);
+
+impl Clone for Learned {
+    fn clone(&self) -> Self {
+        Learned::default()
+    }
 }
 
 impl PartialEq for Matrix {
@@ -77,7 +88,8 @@ struct SparsePlan {
     /// For row r's j-th stored entry, its place in the compressed-column values: `to_csc[row_start[r] + j]`.
     row_start: Vec<usize>,
     to_csc: Vec<usize>,
-    symbolic: Result<SymbolicLu<usize>, String>,
+    /// The fill-reducing column order (None when the ordering failed: the natural order is used).
+    order: Vec<usize>,
 }
 
 impl Matrix {
@@ -87,6 +99,7 @@ impl Matrix {
             rows: vec![Row::default(); n],
             backend: Backend::Auto,
             plan: OnceLock::new(),
+            learned: Learned::default(),
         }
     }
 
@@ -143,6 +156,7 @@ impl Matrix {
                 r.cols.insert(j, col);
                 r.vals.insert(j, v);
                 self.plan = OnceLock::new();
+                self.learned = Learned::default();
             }
         }
     }
@@ -306,12 +320,8 @@ impl Matrix {
         Ok(DenseLu { n, lu, perm })
     }
 
-    fn factor_sparse(&self) -> Result<SparseLu, Singular> {
+    fn factor_sparse(&self) -> Result<Factors, Singular> {
         let plan = Arc::clone(self.plan());
-        let symbolic = match &plan.symbolic {
-            Ok(s) => s,
-            Err(_) => return Err(Singular { column: 0 }),
-        };
         let mut values = vec![0.0; plan.row_idx.len()];
         for (r, row) in self.rows.iter().enumerate() {
             let start = plan.row_start[r];
@@ -319,39 +329,26 @@ impl Matrix {
                 values[plan.to_csc[start + j]] = v;
             }
         }
-        let mut numeric = NumericLu::new();
-        {
-            let a = SparseColMatRef::new(plan.pattern(self.n), &values);
-            let req = symbolic.factorize_numeric_lu_scratch::<f64>(Par::Seq, Default::default());
-            let mut buf = MemBuffer::new(req);
-            let result = symbolic.factorize_numeric_lu(
-                &mut numeric,
-                a,
-                Par::Seq,
-                MemStack::new(&mut buf),
-                Default::default(),
-            );
-            if let Err(e) = result {
-                let column = match e {
-                    faer::sparse::linalg::LuError::SymbolicSingular { index } => symbolic
-                        .col_perm()
-                        .arrays()
-                        .0
-                        .get(index)
-                        .copied()
-                        .unwrap_or(0),
-                    faer::sparse::linalg::LuError::Generic(_) => 0,
-                };
-                return Err(Singular { column });
+        let a = Csc {
+            n: self.n,
+            col_ptr: &plan.col_ptr,
+            row_idx: &plan.row_idx,
+            values: &values,
+        };
+        let mut learned = self.learned.0.lock().unwrap_or_else(|e| e.into_inner());
+        if let Some(structure) = learned.as_ref() {
+            if let Ok(f) = sparse_lu::refactor(&a, structure) {
+                return Ok(f);
             }
         }
-        let lu = SparseLu {
-            plan,
-            numeric,
-            values,
-        };
-        lu.check_pivots()?;
-        Ok(lu)
+        match sparse_lu::factor_pivoting(&a, &plan.order) {
+            Ok(f) => {
+                *learned = Some(Arc::clone(&f.structure));
+                Ok(f)
+            }
+            Err(Failure::Singular { column }) => Err(Singular { column }),
+            Err(Failure::PivotTooSmall) => Err(Singular { column: 0 }),
+        }
     }
 }
 
@@ -383,21 +380,15 @@ impl SparsePlan {
                 to_csc.push(p);
             }
         }
-        let pattern = SymbolicSparseColMatRef::new_checked(n, n, &col_ptr, None, &row_idx);
-        let symbolic =
-            factorize_symbolic_lu(pattern, Default::default()).map_err(|e| format!("{e:?}"));
+        let order =
+            sparse_lu::column_order(n, &col_ptr, &row_idx).unwrap_or_else(|| (0..n).collect());
         SparsePlan {
             col_ptr,
             row_idx,
             row_start,
             to_csc,
-            symbolic,
+            order,
         }
-    }
-
-    fn pattern(&self, n: usize) -> SymbolicSparseColMatRef<'_, usize> {
-        // The invariants were checked when the plan was built.
-        SymbolicSparseColMatRef::new_checked(n, n, &self.col_ptr, None, &self.row_idx)
     }
 }
 
@@ -405,7 +396,7 @@ impl SparsePlan {
 #[derive(Debug, Clone)]
 pub enum Lu {
     Dense(DenseLu),
-    Sparse(Box<SparseLu>),
+    Sparse(Box<Factors>),
 }
 
 impl Lu {
@@ -451,65 +442,6 @@ impl DenseLu {
             y[i] = s / row[i];
         }
         b.copy_from_slice(&y);
-    }
-}
-
-#[derive(Debug, Clone)]
-pub struct SparseLu {
-    plan: Arc<SparsePlan>,
-    numeric: NumericLu<usize, f64>,
-    /// The factored matrix's values in compressed-column order (for the pivot check).
-    values: Vec<f64>,
-}
-
-impl SparseLu {
-    fn lu_ref(&self) -> LuRef<'_, usize, f64> {
-        let symbolic = self
-            .plan
-            .symbolic
-            .as_ref()
-            .expect("a sparse factorization exists only with its symbolic analysis");
-        LuRef::new_unchecked(symbolic, &self.numeric)
-    }
-
-    fn solve(&self, b: &mut [f64]) {
-        let lu = self.lu_ref();
-        let req = lu.symbolic().solve_in_place_scratch::<f64>(1, Par::Seq);
-        let mut buf = MemBuffer::new(req);
-        let n = b.len();
-        let rhs = MatMut::from_column_major_slice_mut(b, n, 1);
-        lu.solve_in_place_with_conj(faer::Conj::No, rhs, Par::Seq, MemStack::new(&mut buf));
-    }
-
-    /// The sparse LU reports no small pivots, so the factorization is checked by solving A x = A 1: a
-    /// solution that is not finite, or off from 1 by more than 1 anywhere, means no usable pivot; the
-    /// unknown furthest off is reported as the singular one (it carries the null direction).
-    fn check_pivots(&self) -> Result<(), Singular> {
-        let plan = &self.plan;
-        let n = plan.col_ptr.len() - 1;
-        let mut b = vec![0.0; n];
-        for c in 0..n {
-            for p in plan.col_ptr[c]..plan.col_ptr[c + 1] {
-                b[plan.row_idx[p]] += self.values[p];
-            }
-        }
-        self.solve(&mut b);
-        let mut worst = (0usize, 0.0f64);
-        for (i, x) in b.iter().enumerate() {
-            let off = if x.is_finite() {
-                (x - 1.0).abs()
-            } else {
-                f64::INFINITY
-            };
-            if off > worst.1 {
-                worst = (i, off);
-            }
-        }
-        if worst.1 > 1.0 {
-            Err(Singular { column: worst.0 })
-        } else {
-            Ok(())
-        }
     }
 }
 

@@ -9,6 +9,7 @@
 
 pub mod devices;
 pub mod matrix;
+pub mod sparse_lu;
 
 use crate::circuit::{Circuit, DiodeModel, ElementKind, Probe, SwitchModel, Waveform};
 use matrix::Matrix;
