@@ -257,14 +257,15 @@ pub fn refactor(a: &Csc<'_>, structure: &std::sync::Arc<Structure>) -> Result<Fa
             x[s.pinv[i]] = v;
             scale = scale.max(v.abs());
         }
-        for e in s.u_ptr[k]..s.u_ptr[k + 1] {
-            let j = s.u_idx[e];
+        let ur = s.u_ptr[k]..s.u_ptr[k + 1];
+        for (&j, u) in s.u_idx[ur.clone()].iter().zip(&mut u_val[ur]) {
             let xj = x[j];
             x[j] = 0.0;
-            u_val[e] = xj;
+            *u = xj;
             if xj != 0.0 {
-                for p in s.l_ptr[j]..s.l_ptr[j + 1] {
-                    x[s.l_idx[p]] -= l_val[p] * xj;
+                let lr = s.l_ptr[j]..s.l_ptr[j + 1];
+                for (&i, &l) in s.l_idx[lr.clone()].iter().zip(&l_val[lr]) {
+                    x[i] -= l * xj;
                 }
             }
         }
