@@ -296,7 +296,7 @@ impl Default for StepControl {
             max_step: None,
             fixed_step: None,
             restart: Restart::BackwardEuler,
-            growth_limit: 2.0,
+            growth_limit: 5.0,
             hold_growth: 1.5,
             shrink_limit: 0.1,
             safety: 0.9,

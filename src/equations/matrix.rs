@@ -400,6 +400,17 @@ pub enum Lu {
 }
 
 impl Lu {
+    /// Floating-point operations of one refactorization of this pattern and of one solve, for the step
+    /// controller's cost model (deterministic, unlike a timing). None for the dense LU: small circuits
+    /// spend their steps on fixed costs, and a dense count (n^3 for a banded pattern whose zeros the LU
+    /// skips) would only mislead, so the step sequence does not depend on the choice of LU there.
+    pub fn flops(&self) -> Option<(f64, f64)> {
+        match self {
+            Lu::Dense(_) => None,
+            Lu::Sparse(s) => Some(s.flops()),
+        }
+    }
+
     /// Solves `A x = b`, overwriting `b` with `x`.
     pub fn solve(&self, b: &mut [f64]) {
         match self {

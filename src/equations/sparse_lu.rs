@@ -76,6 +76,8 @@ pub struct Structure {
     l_idx: Vec<usize>,
     u_ptr: Vec<usize>,
     u_idx: Vec<usize>,
+    /// Floating-point operations of one refactorization (multiply-adds count two).
+    refactor_flops: f64,
 }
 
 /// The numeric factors over a shared `Structure`.
@@ -225,6 +227,13 @@ pub fn factor_pivoting(a: &Csc<'_>, q: &[usize]) -> Result<Factors, Failure> {
         }
         s_ptr.push(s_idx.len());
     }
+    let mut refactor_flops = 0.0;
+    for k in 0..n {
+        for &j in &u_idx[u_ptr[k]..u_ptr[k + 1]] {
+            refactor_flops += 2.0 * (s_ptr[j + 1] - s_ptr[j]) as f64;
+        }
+        refactor_flops += (s_ptr[k + 1] - s_ptr[k]) as f64;
+    }
     let structure = Structure {
         n,
         q: q.to_vec(),
@@ -233,6 +242,7 @@ pub fn factor_pivoting(a: &Csc<'_>, q: &[usize]) -> Result<Factors, Failure> {
         l_idx: s_idx,
         u_ptr,
         u_idx,
+        refactor_flops,
     };
     Ok(Factors {
         structure: std::sync::Arc::new(structure),
@@ -332,6 +342,13 @@ impl Factors {
     /// Stored entries of L and U (fill included), for benchmarks.
     pub fn stored(&self) -> usize {
         self.l_val.len() + self.u_val.len() + self.u_diag.len()
+    }
+
+    /// Floating-point operations of one refactorization and of one solve.
+    pub fn flops(&self) -> (f64, f64) {
+        let s = &*self.structure;
+        let solve = 2.0 * (s.l_idx.len() + s.u_idx.len()) as f64 + s.n as f64;
+        (s.refactor_flops, solve)
     }
 }
 

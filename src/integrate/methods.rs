@@ -138,6 +138,15 @@ pub struct Trial {
 pub trait Method: Sync {
     fn name(&self) -> MethodName;
     fn attempt(&self, s: &mut dyn StageSolver, h: f64) -> Result<Trial, NewtonFailure>;
+    /// Linear solves per step of a linear circuit (TR-BDF2: one per stage and one for its error
+    /// estimate).
+    fn solves_per_step(&self) -> f64 {
+        1.0
+    }
+    /// The largest ratio of successive steps the formula tolerates (None: only the setting limits it).
+    fn max_step_ratio(&self) -> Option<f64> {
+        None
+    }
 }
 
 fn combine(a: f64, x: &[f64], b: f64, y: &[f64]) -> Vec<f64> {
@@ -197,6 +206,11 @@ impl Method for Bdf2 {
     fn name(&self) -> MethodName {
         MethodName::Bdf2
     }
+    /// Variable-step BDF2 is zero-stable for step ratios below 1 + sqrt(2) (Grigorieff 1983; Hairer,
+    /// Norsett and Wanner, Solving ODEs I, III.5, from memory); 2 keeps a margin.
+    fn max_step_ratio(&self) -> Option<f64> {
+        Some(2.0)
+    }
     fn attempt(&self, s: &mut dyn StageSolver, h: f64) -> Result<Trial, NewtonFailure> {
         let Some(prev) = s.previous() else {
             // BDF2 needs two points; its first step is BDF1, which is backward Euler.
@@ -227,6 +241,9 @@ impl Method for Bdf2 {
 impl Method for TrBdf2 {
     fn name(&self) -> MethodName {
         MethodName::TrBdf2
+    }
+    fn solves_per_step(&self) -> f64 {
+        3.0
     }
     fn attempt(&self, s: &mut dyn StageSolver, h: f64) -> Result<Trial, NewtonFailure> {
         let (d, w) = (TRBDF2_D, TRBDF2_W);

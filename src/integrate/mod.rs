@@ -96,6 +96,17 @@ pub fn initial_state(
 }
 
 /// The driver's view of the history, and its stage solver.
+/// The work of a step apart from its solves, per stored entry of G and C and per step, in units of
+/// a floating-point operation of the LU (the hold rule depends only on their ratio to the LU's work).
+/// Measured with `cargo bench --bench floor` on RC ladders of 1000 stages and meshes of 100 x 100:
+/// the non-LU part of a step is about two solves of the ladder's factors.
+const STEP_WORK_PER_ENTRY: f64 = 2.0;
+/// The most a held step may have to grow before it grows: a step kept until it could grow by g runs
+/// on average at about (g - 1) / (g ln g) of its allowed length (0.72 at g = 2, 0.5 at g = 5), so the
+/// hold saves factorizations only up to a point.
+const HOLD_CEILING: f64 = 2.0;
+const STEP_WORK_FIXED: f64 = 2000.0;
+
 struct Solver<'a> {
     sys: &'a System,
     newton: Newton,
@@ -104,6 +115,24 @@ struct Solver<'a> {
     prev: Option<Point>,
     /// Extrapolate Newton guesses only from points after this time (the last breakpoint).
     segment_start: f64,
+}
+
+impl Solver<'_> {
+    /// The growth below which the present step is kept. Keeping a step that could grow by f costs one
+    /// step of work S per step length; growing costs a factorization F once, then S per f step lengths.
+    /// Growing pays off in the next step when (F + S) / f < S, i.e. f > 1 + F / S: the hold is that,
+    /// kept between `floor` (the `hold_growth` setting) and `ceiling` (`HOLD_CEILING`). F and S come from the last factorization's operation counts
+    /// plus the rest of a step (residuals, products, error norm), which the floor bench measures at
+    /// about `STEP_WORK_PER_ENTRY` operations per stored matrix entry and `STEP_WORK_FIXED` per step.
+    fn hold_growth(&self, floor: f64, ceiling: f64, solves: f64) -> f64 {
+        let Some((factor, solve)) = self.newton.last_factorization().and_then(|lu| lu.flops())
+        else {
+            return floor;
+        };
+        let entries = (self.sys.g.stored() + self.sys.c.stored()) as f64;
+        let step = solves * solve + STEP_WORK_PER_ENTRY * entries + STEP_WORK_FIXED;
+        (1.0 + factor / step).clamp(floor, ceiling.max(floor))
+    }
 }
 
 impl StageSolver for Solver<'_> {
@@ -257,6 +286,11 @@ fn points_needed(order: u32) -> usize {
 const RESTART_FRACTION: f64 = 0.25;
 /// Step after a Newton failure, as a fraction of the failed step (common practice).
 const NEWTON_CUT: f64 = 0.25;
+/// A nonlinear circuit's Jacobian can be numerically singular at a far-off Newton iterate (a diode
+/// driven deep into conduction by a long step's guess): such a step is cut like any Newton failure, up
+/// to this many times in a row (a step 0.25^8, about 1.5e-5, of the first), after which the
+/// singularity is reported. A linear circuit's singular matrix is structural and is reported at once.
+const SINGULAR_CUTS: u32 = 8;
 
 /// Runs the assembled equations from t = 0 to `stop`, landing on each of `breakpoints` (sorted, in
 /// (0, stop], ending with stop).
@@ -336,6 +370,7 @@ pub fn simulate_system(
         .fixed_step
         .unwrap_or(h_max.min(breakpoints.first().copied().unwrap_or(stop)) * 0.01);
     let mut at_restart = true;
+    let mut singular_cuts = 0u32;
     let mut window: VecDeque<(f64, Vec<f64>)> = VecDeque::from([(0.0, x0)]);
     let mut window_formula: Option<MethodName> = None;
 
@@ -389,12 +424,21 @@ pub fn simulate_system(
         }
 
         let trial = match formula.attempt(&mut solver, hh) {
-            Ok(tr) => tr,
+            Ok(tr) => {
+                singular_cuts = 0;
+                tr
+            }
             Err(NewtonFailure::Singular { unknown }) => {
-                return Err(RunError::Singular {
-                    time: t + hh,
-                    unknown: sys.describe_unknown(unknown),
-                })
+                if sys.linear || singular_cuts >= SINGULAR_CUTS {
+                    return Err(RunError::Singular {
+                        time: t + hh,
+                        unknown: sys.describe_unknown(unknown),
+                    });
+                }
+                singular_cuts += 1;
+                stats.rejected_steps += 1;
+                h = hh * NEWTON_CUT;
+                continue;
             }
             Err(_) => {
                 stats.rejected_steps += 1;
@@ -414,6 +458,10 @@ pub fn simulate_system(
         }
 
         let p = trial.order as f64;
+        let growth = main_method
+            .max_step_ratio()
+            .map_or(sc.growth_limit, |m| m.min(sc.growth_limit));
+        let hold = solver.hold_growth(sc.hold_growth, HOLD_CEILING, main_method.solves_per_step());
         let (accepted_points, next_h): (Vec<Solved>, f64) = if sc.fixed_step.is_some() {
             (vec![trial.point], sc.fixed_step.unwrap_or(hh))
         } else {
@@ -439,7 +487,7 @@ pub fn simulate_system(
                     let ratio = norm.ratio(&err, &solver.cur.x, &trial.point.x);
                     let factor = step_factor(ratio, p, sc.safety);
                     if ratio <= 1.0 {
-                        (vec![trial.point], held(base, factor, sc))
+                        (vec![trial.point], held(base, factor, hold, growth))
                     } else {
                         stats.rejected_steps += 1;
                         h = base * factor.clamp(sc.shrink_limit, 0.9);
@@ -451,7 +499,7 @@ pub fn simulate_system(
                     let used = methods::method(trial.used);
                     match double_check(&mut solver, used, &trial, hh, &norm, sc.safety) {
                         Ok(Doubled::Accept { mid, end, factor }) => {
-                            (vec![mid, end], held(hh / 2.0, factor, sc))
+                            (vec![mid, end], held(hh / 2.0, factor, hold, growth))
                         }
                         Ok(Doubled::Reject { factor }) => {
                             stats.rejected_steps += 1;
@@ -459,10 +507,16 @@ pub fn simulate_system(
                             continue;
                         }
                         Err(NewtonFailure::Singular { unknown }) => {
-                            return Err(RunError::Singular {
-                                time: t + hh,
-                                unknown: sys.describe_unknown(unknown),
-                            })
+                            if sys.linear || singular_cuts >= SINGULAR_CUTS {
+                                return Err(RunError::Singular {
+                                    time: t + hh,
+                                    unknown: sys.describe_unknown(unknown),
+                                });
+                            }
+                            singular_cuts += 1;
+                            stats.rejected_steps += 1;
+                            h = hh * NEWTON_CUT;
+                            continue;
                         }
                         Err(_) => {
                             stats.rejected_steps += 1;
@@ -525,13 +579,13 @@ pub fn simulate_system(
 }
 
 /// The next step after an accepted step `h` whose error allows growth by `factor`: at most
-/// `growth_limit` times longer, and `h` itself when the growth would be less than `hold_growth` (a
-/// linear circuit then reuses its factored Jacobian).
-fn held(h: f64, factor: f64, sc: &crate::settings::StepControl) -> f64 {
-    if factor >= 1.0 && factor < sc.hold_growth {
+/// `growth_limit` times longer (the setting, or less where the method needs it), and `h` itself when the growth would be less than `hold` (a linear
+/// circuit then reuses its factored Jacobian).
+fn held(h: f64, factor: f64, hold: f64, growth_limit: f64) -> f64 {
+    if factor >= 1.0 && factor < hold {
         h
     } else {
-        h * factor.min(sc.growth_limit)
+        h * factor.min(growth_limit)
     }
 }
 

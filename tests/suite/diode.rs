@@ -84,3 +84,33 @@ fn series_diode_operating_point_matches_lambert_w() {
     check(12.0, 47.0, 2e-9, 1.8);
     check(1.0, 1e4, 1e-15, 1.0);
 }
+
+/// Regression: with steps allowed to grow fivefold, TR-BDF2's guess after a long step drove the clamp
+/// diode so far into conduction that the Jacobian was numerically singular, and the run stopped with a
+/// "singular at node rail" error. A nonlinear circuit now cuts such a step like any Newton failure.
+#[test]
+fn a_singular_newton_iterate_of_a_nonlinear_circuit_cuts_the_step() {
+    let text = std::fs::read_to_string(concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/reference_circuits/diode-clamp.yaml"
+    ))
+    .expect("shipped circuit");
+    let c = circuit(&text);
+    for m in MethodName::ALL {
+        let run = crate::common::run(&c, m, |_| {});
+        let t = &run.trajectory.times;
+        assert!(
+            (t[t.len() - 1] - 3e-6).abs() < 1e-15,
+            "{m:?} ends at {}",
+            t[t.len() - 1]
+        );
+        // The clamp holds the pin within a diode drop of the 3.3 V rail (common practice: under 1 V).
+        let peak = run
+            .trajectory
+            .signal("pin")
+            .expect("watched")
+            .iter()
+            .fold(f64::MIN, |a, &b| a.max(b));
+        assert!(peak > 3.3 && peak < 4.3, "{m:?}: pin peak {peak}");
+    }
+}
