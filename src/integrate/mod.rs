@@ -284,6 +284,11 @@ fn points_needed(order: u32) -> usize {
 
 /// Step shrinks after a breakpoint: the first step is a quarter of the step before it.
 const RESTART_FRACTION: f64 = 0.25;
+/// Smallest factor by which a step rejected by step doubling is shortened. Doubling checks the first
+/// step after a breakpoint, where the run has no history and the first guess (a hundredth of the
+/// segment) can be many decades too long for a stiff jump; the doubling estimate itself (two half
+/// steps against one) is then the only evidence, so it may shorten by more than `shrink_limit`.
+const DOUBLING_SHRINK_LIMIT: f64 = 1e-4;
 /// Step after a Newton failure, as a fraction of the failed step (common practice).
 const NEWTON_CUT: f64 = 0.25;
 /// A nonlinear circuit's Jacobian can be numerically singular at a far-off Newton iterate (a diode
@@ -503,7 +508,8 @@ pub fn simulate_system(
                         }
                         Ok(Doubled::Reject { factor }) => {
                             stats.rejected_steps += 1;
-                            h = hh / 2.0 * factor.clamp(sc.shrink_limit, 0.9);
+                            let floor = sc.shrink_limit.min(DOUBLING_SHRINK_LIMIT);
+                            h = hh / 2.0 * factor.clamp(floor, 0.9);
                             continue;
                         }
                         Err(NewtonFailure::Singular { unknown }) => {

@@ -75,7 +75,20 @@ fn compare(label: &str, text: &str) {
     for m in MethodName::ALL {
         let dense = run(&c, m, |s| s.linear_solver = Backend::Dense);
         let sparse = run(&c, m, |s| s.linear_solver = Backend::Sparse);
-        let (a, b) = (&dense.trajectory, &sparse.trajectory);
+        let (mut a, mut b) = (dense.trajectory, sparse.trajectory);
+        let mut bound = bound;
+        if !c.is_linear() && a.times.len() != b.times.len() {
+            // Newton's stopping point, or whether a far-off iterate's Jacobian counts as singular (a
+            // cut step), can move by rounding, and with it a later accept/reject choice. The step
+            // sequences then part: the runs are two valid solutions at the run's rtol (1e-3), compared
+            // at 200 common times to ten times that (the solves above carry the 1e-12 agreement).
+            let times: Vec<f64> = (0..200).map(|k| c.run.stop * k as f64 / 199.0).collect();
+            let bps = c.breakpoints();
+            a = a.resample(&bps, &times);
+            b = b.resample(&bps, &times);
+            bound = 1e-2;
+        }
+        let (a, b) = (&a, &b);
         assert_eq!(
             a.times.len(),
             b.times.len(),
