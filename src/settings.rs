@@ -271,12 +271,14 @@ pub struct StepControl {
     /// Run with this step everywhere (still landing on breakpoints), without LTE control.
     pub fixed_step: Option<f64>,
     pub restart: Restart,
-    /// Largest factor by which one step may exceed the previous one.
+    /// Largest factor by which one step may exceed the previous one (BDF2 also stays below its own
+    /// zero-stability limit, see `Method::max_step_ratio`).
     pub growth_limit: f64,
     /// A proposed growth by less than this factor keeps the present step, and with it the factored
     /// Jacobian of a linear circuit (1 turns holding off). Hairer & Wanner's RADAU5 keeps the step for
-    /// growth in [1, 1.2] (Solving ODEs II, IV.8, from memory); a sparse refactorization costs many
-    /// solves, so we hold a little longer.
+    /// growth in [1, 1.2] (Solving ODEs II, IV.8, from memory); a refactorization costs several
+    /// solves, so we hold a little longer, and the driver holds up to growth 2 when the sparse LU's
+    /// operation counts say a refactorization costs much more than a step (`integrate::hold_growth`).
     pub hold_growth: f64,
     /// Smallest factor by which a rejected step is shortened.
     pub shrink_limit: f64,

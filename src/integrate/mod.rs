@@ -95,18 +95,18 @@ pub fn initial_state(
     }
 }
 
-/// The driver's view of the history, and its stage solver.
 /// The work of a step apart from its solves, per stored entry of G and C and per step, in units of
 /// a floating-point operation of the LU (the hold rule depends only on their ratio to the LU's work).
 /// Measured with `cargo bench --bench floor` on RC ladders of 1000 stages and meshes of 100 x 100:
 /// the non-LU part of a step is about two solves of the ladder's factors.
 const STEP_WORK_PER_ENTRY: f64 = 2.0;
+const STEP_WORK_FIXED: f64 = 2000.0;
 /// The most a held step may have to grow before it grows: a step kept until it could grow by g runs
 /// on average at about (g - 1) / (g ln g) of its allowed length (0.72 at g = 2, 0.5 at g = 5), so the
 /// hold saves factorizations only up to a point.
 const HOLD_CEILING: f64 = 2.0;
-const STEP_WORK_FIXED: f64 = 2000.0;
 
+/// The driver's view of the history, and its stage solver.
 struct Solver<'a> {
     sys: &'a System,
     newton: Newton,
@@ -121,9 +121,10 @@ impl Solver<'_> {
     /// The growth below which the present step is kept. Keeping a step that could grow by f costs one
     /// step of work S per step length; growing costs a factorization F once, then S per f step lengths.
     /// Growing pays off in the next step when (F + S) / f < S, i.e. f > 1 + F / S: the hold is that,
-    /// kept between `floor` (the `hold_growth` setting) and `ceiling` (`HOLD_CEILING`). F and S come from the last factorization's operation counts
-    /// plus the rest of a step (residuals, products, error norm), which the floor bench measures at
-    /// about `STEP_WORK_PER_ENTRY` operations per stored matrix entry and `STEP_WORK_FIXED` per step.
+    /// kept between `floor` (the `hold_growth` setting) and `ceiling` (`HOLD_CEILING`). F and S come
+    /// from the last factorization's operation counts plus the rest of a step (residuals, products,
+    /// error norm), which the floor bench measures at about `STEP_WORK_PER_ENTRY` operations per
+    /// stored matrix entry and `STEP_WORK_FIXED` per step. The dense LU gives no counts: `floor`.
     fn hold_growth(&self, floor: f64, ceiling: f64, solves: f64) -> f64 {
         let Some((factor, solve)) = self.newton.last_factorization().and_then(|lu| lu.flops())
         else {
