@@ -86,7 +86,9 @@ pub struct Factors {
     pub structure: std::sync::Arc<Structure>,
     l_val: Vec<f64>,
     u_val: Vec<f64>,
-    u_diag: Vec<f64>,
+    /// Reciprocals of U's diagonal: back substitution multiplies, since a division's latency would
+    /// chain from one unknown to the next (on a ladder it was half the solve's time).
+    u_inv: Vec<f64>,
 }
 
 /// Why a factorization stopped.
@@ -119,7 +121,7 @@ pub fn factor_pivoting(a: &Csc<'_>, q: &[usize]) -> Result<Factors, Failure> {
     // L with original row indices while factoring (the pivot row first, value 1).
     let (mut l_ptr, mut l_idx, mut l_val) = (vec![0usize], Vec::new(), Vec::new());
     let (mut u_ptr, mut u_idx, mut u_val) = (vec![0usize], Vec::new(), Vec::new());
-    let mut u_diag = vec![0.0; n];
+    let mut u_inv = vec![0.0; n];
     let mut u_col: Vec<(usize, f64)> = Vec::new();
     for (k, &col) in q.iter().enumerate() {
         // The rows reached from A(:, col) through the columns of L done so far, in topological order.
@@ -196,7 +198,7 @@ pub fn factor_pivoting(a: &Csc<'_>, q: &[usize]) -> Result<Factors, Failure> {
             return Err(Failure::Singular { column: col });
         }
         let pivot = x[ipiv];
-        u_diag[k] = pivot;
+        u_inv[k] = 1.0 / pivot;
         pinv[ipiv] = k;
         u_col.sort_unstable_by_key(|e| e.0);
         for &(r, v) in &u_col {
@@ -248,7 +250,7 @@ pub fn factor_pivoting(a: &Csc<'_>, q: &[usize]) -> Result<Factors, Failure> {
         structure: std::sync::Arc::new(structure),
         l_val: s_val,
         u_val,
-        u_diag,
+        u_inv,
     })
 }
 
@@ -260,7 +262,7 @@ pub fn refactor(a: &Csc<'_>, structure: &std::sync::Arc<Structure>) -> Result<Fa
     let mut x = vec![0.0; n];
     let mut l_val = vec![0.0; s.l_idx.len()];
     let mut u_val = vec![0.0; s.u_idx.len()];
-    let mut u_diag = vec![0.0; n];
+    let mut u_inv = vec![0.0; n];
     for (k, &col) in s.q.iter().enumerate() {
         let mut scale = 0.0f64;
         for (i, v) in a.col(col) {
@@ -292,10 +294,11 @@ pub fn refactor(a: &Csc<'_>, structure: &std::sync::Arc<Structure>) -> Result<Fa
         if pivot.abs() < REUSE_THRESHOLD * largest || !largest.is_finite() {
             return Err(Failure::PivotTooSmall);
         }
-        u_diag[k] = pivot;
+        u_inv[k] = 1.0 / pivot;
+        let inv = 1.0 / pivot;
         for p in lr {
             let r = s.l_idx[p];
-            l_val[p] = x[r] / pivot;
+            l_val[p] = x[r] * inv;
             x[r] = 0.0;
         }
     }
@@ -303,7 +306,7 @@ pub fn refactor(a: &Csc<'_>, structure: &std::sync::Arc<Structure>) -> Result<Fa
         structure: std::sync::Arc::clone(structure),
         l_val,
         u_val,
-        u_diag,
+        u_inv,
     })
 }
 
@@ -325,7 +328,7 @@ impl Factors {
             }
         }
         for k in (0..s.n).rev() {
-            let yk = y[k] / self.u_diag[k];
+            let yk = y[k] * self.u_inv[k];
             y[k] = yk;
             if yk != 0.0 {
                 let r = s.u_ptr[k]..s.u_ptr[k + 1];
@@ -341,7 +344,7 @@ impl Factors {
 
     /// Stored entries of L and U (fill included), for benchmarks.
     pub fn stored(&self) -> usize {
-        self.l_val.len() + self.u_val.len() + self.u_diag.len()
+        self.l_val.len() + self.u_val.len() + self.u_inv.len()
     }
 
     /// Floating-point operations of one refactorization and of one solve.
