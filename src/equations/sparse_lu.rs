@@ -100,7 +100,7 @@ pub enum Failure {
     PivotTooSmall,
 }
 
-/// The largest magnitude in each column (the scale for "a pivot of zero").
+/// The largest magnitude in column `c` of A (the scale for "a pivot of zero").
 fn column_scale(a: &Csc<'_>, c: usize) -> f64 {
     a.col(c).fold(0.0f64, |m, (_, v)| m.max(v.abs()))
 }
