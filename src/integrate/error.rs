@@ -15,6 +15,17 @@ pub enum RunError {
     StepTooSmall { time: f64, step: f64 },
 
     #[error(
+        "the step fell to {} s at t = {} s, just after the jump at {} s, below the smallest allowed step: with restart `same` the first steps after a jump use {method}, which is not L-stable and cannot damp an ideal jump's stiff components within the tolerances; use restart `backward-euler` (the default; --restart or run.restart), or give the source a rise time",
+        shortest(*step), shortest(*time), shortest(*jump)
+    )]
+    StepTooSmallAfterJump {
+        time: f64,
+        step: f64,
+        jump: f64,
+        method: &'static str,
+    },
+
+    #[error(
         "the run used its budget of {budget} steps by t = {} s of {} s; raise run.step_budget or loosen the tolerances",
         shortest(*time), shortest(*stop)
     )]

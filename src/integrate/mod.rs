@@ -290,6 +290,8 @@ const RESTART_FRACTION: f64 = 0.25;
 /// segment) can be many decades too long for a stiff jump; the doubling estimate itself (two half
 /// steps against one) is then the only evidence, so it may shorten by more than `shrink_limit`.
 const DOUBLING_SHRINK_LIMIT: f64 = 1e-4;
+/// A step that fails this close after a breakpoint (as a fraction of the run) failed at the jump.
+const JUST_AFTER_JUMP: f64 = 1e-6;
 /// Step after a Newton failure, as a fraction of the failed step (common practice).
 const NEWTON_CUT: f64 = 0.25;
 /// A nonlinear circuit's Jacobian can be numerically singular at a far-off Newton iterate (a diode
@@ -426,6 +428,18 @@ pub fn simulate_system(
             }
         }
         if hh < h_min || t + hh == t {
+            let method = methods::info(settings.method);
+            if sc.restart == Restart::Same
+                && !method.l_stable
+                && t - solver.segment_start <= JUST_AFTER_JUMP * stop
+            {
+                return Err(RunError::StepTooSmallAfterJump {
+                    time: t,
+                    step: hh,
+                    jump: solver.segment_start,
+                    method: settings.method.as_str(),
+                });
+            }
             return Err(RunError::StepTooSmall { time: t, step: hh });
         }
 

@@ -134,3 +134,43 @@ fn bdf2_follows_its_characteristic_roots() {
         }
     }
 }
+
+/// Trapezoidal's R(-inf) = -1 (Hairer & Wanner, *Solving ODEs II*, IV.3): restarted with itself at an
+/// ideal step on a stiff RC ladder (time constants from about 0.25 ns to 4 us), its step-doubling
+/// estimate never falls within a tight tolerance, and the step shrinks away. The run must then say
+/// that the restart is the cause and how to fix it; the default backward-Euler restart runs.
+#[test]
+fn a_trapezoidal_restart_that_fails_at_an_ideal_jump_names_the_cause() {
+    let mut text = String::from(
+        "name: ideal-step-ladder\nelements:\n  - { kind: voltage_source, name: vin, nodes: [n0, gnd], waveform: { step: { from: 0, to: 1, at: 0, rise: 0 } } }\n",
+    );
+    for k in 1..=100 {
+        text.push_str(&format!(
+            "  - {{ kind: resistor, name: r{k}, nodes: [n{}, n{k}], value: 1k }}\n  - {{ kind: capacitor, name: c{k}, nodes: [n{k}, gnd], value: 1p }}\n",
+            k - 1
+        ));
+    }
+    text.push_str("run: { stop: 20u }\nwatch: [n100]\n");
+    let c = circuit(&text);
+    let settings = |restart| {
+        let mut s = ringtrue::settings::Settings::new(MethodName::Trapezoidal);
+        s.tolerances.rtol = 1e-6;
+        s.tolerances.scale = ringtrue::settings::Scale::CircuitPeak;
+        s.steps.restart = restart;
+        s
+    };
+    match ringtrue::integrate::simulate(&c, &settings(Restart::Same)) {
+        Err(e @ ringtrue::integrate::RunError::StepTooSmallAfterJump { .. }) => {
+            let msg = e.to_string();
+            assert!(
+                msg.contains("trapezoidal") && msg.contains("backward-euler"),
+                "{msg}"
+            );
+        }
+        other => panic!(
+            "expected a failure at the jump, got {:?}",
+            other.map(|r| r.stats)
+        ),
+    }
+    assert!(ringtrue::integrate::simulate(&c, &settings(Restart::BackwardEuler)).is_ok());
+}
