@@ -88,7 +88,7 @@ struct SparsePlan {
     /// For row r's j-th stored entry, its place in the compressed-column values: `to_csc[row_start[r] + j]`.
     row_start: Vec<usize>,
     to_csc: Vec<usize>,
-    /// The fill-reducing column order (None when the ordering failed: the natural order is used).
+    /// The fill-reducing column order (the natural order when the ordering failed).
     order: Vec<usize>,
 }
 

@@ -342,11 +342,6 @@ impl Factors {
         }
     }
 
-    /// Stored entries of L and U (fill included), for benchmarks.
-    pub fn stored(&self) -> usize {
-        self.l_val.len() + self.u_val.len() + self.u_inv.len()
-    }
-
     /// Floating-point operations of one refactorization and of one solve.
     pub fn flops(&self) -> (f64, f64) {
         let s = &*self.structure;

@@ -115,6 +115,8 @@ struct Solver<'a> {
     prev: Option<Point>,
     /// Extrapolate Newton guesses only from points after this time (the last breakpoint).
     segment_start: f64,
+    /// Stored entries of G and C, for the hold rule's cost of a step.
+    step_entries: f64,
 }
 
 impl Solver<'_> {
@@ -130,8 +132,7 @@ impl Solver<'_> {
         else {
             return floor;
         };
-        let entries = (self.sys.g.stored() + self.sys.c.stored()) as f64;
-        let step = solves * solve + STEP_WORK_PER_ENTRY * entries + STEP_WORK_FIXED;
+        let step = solves * solve + STEP_WORK_PER_ENTRY * self.step_entries + STEP_WORK_FIXED;
         (1.0 + factor / step).clamp(floor, ceiling.max(floor))
     }
 }
@@ -348,6 +349,7 @@ pub fn simulate_system(
         },
         prev: None,
         segment_start: 0.0,
+        step_entries: (sys.g.stored() + sys.c.stored()) as f64,
     };
     solver.newton.work = start_newton.work;
     let mut norm = ErrorNorm {
@@ -372,6 +374,9 @@ pub fn simulate_system(
     let h_max = sc.effective_max_step(stop);
     let h_min = sc.min_step_fraction * stop;
     let main_method = methods::method(settings.method);
+    let growth = main_method
+        .max_step_ratio()
+        .map_or(sc.growth_limit, |m| m.min(sc.growth_limit));
     let be = methods::method(MethodName::BackwardEuler);
     let mut bp_idx = 0;
     let mut h = sc
@@ -448,19 +453,8 @@ pub fn simulate_system(
                 singular_cuts = 0;
                 tr
             }
-            Err(NewtonFailure::Singular { unknown }) => {
-                if sys.linear || singular_cuts >= SINGULAR_CUTS {
-                    return Err(RunError::Singular {
-                        time: t + hh,
-                        unknown: sys.describe_unknown(unknown),
-                    });
-                }
-                singular_cuts += 1;
-                stats.rejected_steps += 1;
-                h = hh * NEWTON_CUT;
-                continue;
-            }
-            Err(_) => {
+            Err(failure) => {
+                cut_or_report(failure, sys, &mut singular_cuts, t + hh)?;
                 stats.rejected_steps += 1;
                 h = hh * NEWTON_CUT;
                 continue;
@@ -478,9 +472,6 @@ pub fn simulate_system(
         }
 
         let p = trial.order as f64;
-        let growth = main_method
-            .max_step_ratio()
-            .map_or(sc.growth_limit, |m| m.min(sc.growth_limit));
         let hold = solver.hold_growth(sc.hold_growth, HOLD_CEILING, main_method.solves_per_step());
         let (accepted_points, next_h): (Vec<Solved>, f64) = if sc.fixed_step.is_some() {
             (vec![trial.point], sc.fixed_step.unwrap_or(hh))
@@ -527,19 +518,8 @@ pub fn simulate_system(
                             h = hh / 2.0 * factor.clamp(floor, 0.9);
                             continue;
                         }
-                        Err(NewtonFailure::Singular { unknown }) => {
-                            if sys.linear || singular_cuts >= SINGULAR_CUTS {
-                                return Err(RunError::Singular {
-                                    time: t + hh,
-                                    unknown: sys.describe_unknown(unknown),
-                                });
-                            }
-                            singular_cuts += 1;
-                            stats.rejected_steps += 1;
-                            h = hh * NEWTON_CUT;
-                            continue;
-                        }
-                        Err(_) => {
+                        Err(failure) => {
+                            cut_or_report(failure, sys, &mut singular_cuts, t + hh)?;
                             stats.rejected_steps += 1;
                             h = hh * NEWTON_CUT;
                             continue;
@@ -597,6 +577,27 @@ pub fn simulate_system(
         peak_voltage: norm.peak_v,
         peak_current: norm.peak_i,
     })
+}
+
+/// Whether a step whose Newton solve failed at `time` is cut (Ok) or ends the run: a singular Jacobian
+/// of a linear circuit is structural and is reported at once; a nonlinear circuit's is cut up to
+/// `SINGULAR_CUTS` times in a row (counted in `cuts`). Every other failure is cut.
+fn cut_or_report(
+    failure: NewtonFailure,
+    sys: &System,
+    cuts: &mut u32,
+    time: f64,
+) -> Result<(), RunError> {
+    if let NewtonFailure::Singular { unknown } = failure {
+        if sys.linear || *cuts >= SINGULAR_CUTS {
+            return Err(RunError::Singular {
+                time,
+                unknown: sys.describe_unknown(unknown),
+            });
+        }
+        *cuts += 1;
+    }
+    Ok(())
 }
 
 /// The next step after an accepted step `h` whose error allows growth by `factor`: at most
