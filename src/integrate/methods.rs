@@ -101,18 +101,11 @@ pub struct Solved {
 pub trait StageSolver {
     fn current(&self) -> &Point;
     fn previous(&self) -> Option<&Point>;
-    /// Solves alpha q(x) + i(x, t) = b(t) + r from the guess `guess`.
-    fn solve(
-        &mut self,
-        alpha: f64,
-        r: &[f64],
-        t: f64,
-        guess: &[f64],
-    ) -> Result<Solved, NewtonFailure>;
+    /// Solves alpha q(x) + i(x, t) = b(t) + r (Newton from an extrapolation of the history; a linear
+    /// circuit by one solve of its step matrix).
+    fn solve(&mut self, alpha: f64, r: &[f64], t: f64) -> Result<Solved, NewtonFailure>;
     /// Solves J y = v in place with the Jacobian of the last stage solved.
     fn solve_with_last_jacobian(&self, v: &mut [f64]);
-    /// The Newton guess for a step to `t` (an extrapolation of the history).
-    fn guess(&self, t: f64) -> Vec<f64>;
 }
 
 /// How a trial step's local error is to be estimated.
@@ -167,8 +160,7 @@ impl Method for BackwardEuler {
         let t = cur.t + h;
         let alpha = 1.0 / h;
         let r: Vec<f64> = cur.q.iter().map(|q| q / h).collect();
-        let guess = s.guess(t);
-        let point = s.solve(alpha, &r, t, &guess)?;
+        let point = s.solve(alpha, &r, t)?;
         Ok(Trial {
             point,
             estimate: Estimate::FromHistory {
@@ -189,8 +181,7 @@ impl Method for Trapezoidal {
         let t = cur.t + h;
         let alpha = 2.0 / h;
         let r = combine(alpha, &cur.q, 1.0, &cur.qdot);
-        let guess = s.guess(t);
-        let point = s.solve(alpha, &r, t, &guess)?;
+        let point = s.solve(alpha, &r, t)?;
         Ok(Trial {
             point,
             estimate: Estimate::FromHistory {
@@ -224,8 +215,7 @@ impl Method for Bdf2 {
         let alpha = (1.0 + 2.0 * w) / ((1.0 + w) * h);
         let r = combine((1.0 + w) / h, &cur.q, -(w * w) / ((1.0 + w) * h), &prev.q);
         let t = cur.t + h;
-        let guess = s.guess(t);
-        let point = s.solve(alpha, &r, t, &guess)?;
+        let point = s.solve(alpha, &r, t)?;
         // Local error = x''' h^2 (h + h1)^2 / (6 (2h + h1)): the interpolation error of the derivative
         // divided by the leading coefficient alpha.
         let coefficient = h * h * (h + h1) * (h + h1) / (6.0 * (2.0 * h + h1));
@@ -251,8 +241,7 @@ impl Method for TrBdf2 {
         // Stage 1: the trapezoidal rule over gamma h.
         let a1 = 2.0 / (GAMMA * h);
         let r1 = combine(a1, &cur.q, 1.0, &cur.qdot);
-        let guess = s.guess(cur.t + GAMMA * h);
-        let mid = s.solve(a1, &r1, cur.t + GAMMA * h, &guess)?;
+        let mid = s.solve(a1, &r1, cur.t + GAMMA * h)?;
         // Stage 2: q_{n+1} = q_n + h (w qdot_n + w qdot_gamma + d qdot_{n+1}), the BDF2 stage.
         let a2 = 1.0 / (d * h);
         let r2: Vec<f64> = cur
@@ -262,8 +251,7 @@ impl Method for TrBdf2 {
             .zip(&mid.qdot)
             .map(|((q, f0), f1)| (q + h * w * (f0 + f1)) * a2)
             .collect();
-        let guess = s.guess(cur.t + h);
-        let end = s.solve(a2, &r2, cur.t + h, &guess)?;
+        let end = s.solve(a2, &r2, cur.t + h)?;
         // Embedded estimate in charge units, then filtered through the stage Jacobian
         // (alpha2 C + G)^-1 alpha2 to bring it to the unknowns (common practice for stiff problems).
         let [e0, e1, e2] = TRBDF2_EMBEDDED;

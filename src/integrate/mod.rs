@@ -19,7 +19,7 @@ use crate::equations::{System, UnknownKind};
 use crate::settings::{MethodName, Restart, Scale, Settings, Start};
 pub use error::RunError;
 use methods::{Estimate, Method, Point, Solved, StageSolver, Trial};
-use newton::{Newton, NewtonFailure, NewtonTolerances, Stage};
+use newton::{Equations, Newton, NewtonFailure, NewtonTolerances, Stage};
 use std::collections::VecDeque;
 use std::time::Instant;
 
@@ -120,6 +120,21 @@ struct Solver<'a> {
 }
 
 impl Solver<'_> {
+    /// The Newton guess for a step to `t`: the line through the last two points of this segment.
+    fn guess(&self, t: f64) -> Vec<f64> {
+        match &self.prev {
+            Some(p) if p.t >= self.segment_start && self.cur.t > p.t => {
+                let s = (t - self.cur.t) / (self.cur.t - p.t);
+                self.cur
+                    .x
+                    .iter()
+                    .zip(&p.x)
+                    .map(|(c, p)| c + s * (c - p))
+                    .collect()
+            }
+            _ => self.cur.x.clone(),
+        }
+    }
     /// The growth below which the present step is kept. Keeping a step that could grow by f costs one
     /// step of work S per step length; growing costs a factorization F once, then S per f step lengths.
     /// Growing pays off in the next step when (F + S) / f < S, i.e. f > 1 + F / S: the hold is that,
@@ -144,13 +159,7 @@ impl StageSolver for Solver<'_> {
     fn previous(&self) -> Option<&Point> {
         self.prev.as_ref()
     }
-    fn solve(
-        &mut self,
-        alpha: f64,
-        r: &[f64],
-        t: f64,
-        guess: &[f64],
-    ) -> Result<Solved, NewtonFailure> {
+    fn solve(&mut self, alpha: f64, r: &[f64], t: f64) -> Result<Solved, NewtonFailure> {
         let stage = Stage {
             sys: self.sys,
             alpha,
@@ -159,8 +168,23 @@ impl StageSolver for Solver<'_> {
             source_factor: 1.0,
             shunt: 0.0,
         };
-        let mut x = guess.to_vec();
-        self.newton.solve(&stage, &mut x, &self.tol)?;
+        let x = match stage.jacobian_key() {
+            Some(key) => {
+                // A linear stage is (alpha C + G) x = b(t) + r: one solve, no guess needed.
+                let mut x = vec![0.0; r.len()];
+                self.sys.sources_into(t, 1.0, &mut x);
+                for (xi, ri) in x.iter_mut().zip(r) {
+                    *xi += ri;
+                }
+                self.newton.solve_linear(&stage, key, &mut x)?;
+                x
+            }
+            None => {
+                let mut x = self.guess(t);
+                self.newton.solve(&stage, &mut x, &self.tol)?;
+                x
+            }
+        };
         let mut q = vec![0.0; x.len()];
         self.sys.charge_into(&x, &mut q);
         let qdot = q.iter().zip(r).map(|(q, r)| alpha * q - r).collect();
@@ -171,26 +195,13 @@ impl StageSolver for Solver<'_> {
             lu.solve(v);
         }
     }
-    fn guess(&self, t: f64) -> Vec<f64> {
-        match &self.prev {
-            Some(p) if p.t >= self.segment_start && self.cur.t > p.t => {
-                let s = (t - self.cur.t) / (self.cur.t - p.t);
-                self.cur
-                    .x
-                    .iter()
-                    .zip(&p.x)
-                    .map(|(c, p)| c + s * (c - p))
-                    .collect()
-            }
-            _ => self.cur.x.clone(),
-        }
-    }
 }
 
 /// Local-error test against the tolerances.
 struct ErrorNorm<'a> {
-    sys: &'a System,
     settings: &'a Settings,
+    /// Per unknown: the kind when it controls the step (see `classes`).
+    class: Vec<Option<UnknownKind>>,
     /// Largest |x_i| over the accepted points so far.
     peak: Vec<f64>,
     peak_v: f64,
@@ -198,38 +209,63 @@ struct ErrorNorm<'a> {
 }
 
 impl ErrorNorm<'_> {
-    fn observe(&mut self, x: &[f64]) {
-        for (i, (p, v)) in self.peak.iter_mut().zip(x).enumerate() {
-            *p = p.max(v.abs());
-            if !self.sys.unknowns[i].controls_step {
-                continue;
-            }
-            match self.sys.unknowns[i].kind {
-                UnknownKind::Voltage => self.peak_v = self.peak_v.max(v.abs()),
-                UnknownKind::Current => self.peak_i = self.peak_i.max(v.abs()),
+    /// Which unknowns control the step, and of which kind: `None` for those that do not.
+    fn classes(sys: &System) -> Vec<Option<UnknownKind>> {
+        sys.unknowns
+            .iter()
+            .map(|u| u.controls_step.then_some(u.kind))
+            .collect()
+    }
+
+    /// The largest |x_i| of each kind over the unknowns that control the step.
+    fn kind_peaks(&self, x: &[f64]) -> (f64, f64) {
+        let (mut v_peak, mut i_peak) = (0.0f64, 0.0f64);
+        for (class, v) in self.class.iter().zip(x) {
+            match class {
+                Some(UnknownKind::Voltage) => v_peak = v_peak.max(v.abs()),
+                Some(UnknownKind::Current) => i_peak = i_peak.max(v.abs()),
+                None => {}
             }
         }
+        (v_peak, i_peak)
+    }
+
+    fn observe(&mut self, x: &[f64]) {
+        for (p, v) in self.peak.iter_mut().zip(x) {
+            *p = p.max(v.abs());
+        }
+        let (v_peak, i_peak) = self.kind_peaks(x);
+        self.peak_v = self.peak_v.max(v_peak);
+        self.peak_i = self.peak_i.max(i_peak);
     }
 
     /// max_i |err_i| / (lte_factor (rtol scale_i + atol_i)) over the unknowns that control the step.
-    fn ratio(&self, err: &[f64], old: &[f64], new: &[f64]) -> f64 {
+    /// "So far" includes the trial point: its own values for `signal_peak` and `value`, and for
+    /// `circuit_peak` the largest of each kind in it, so that a circuit starting from rest measures its
+    /// first step against the source that drives it and not against each node's own tiny value.
+    fn ratio(&self, err: impl Fn(usize) -> f64, old: &[f64], new: &[f64]) -> f64 {
         let t = &self.settings.tolerances;
-        let mut worst: f64 = 0.0;
-        for (i, u) in self.sys.unknowns.iter().enumerate() {
-            if !u.controls_step {
-                continue;
+        let (peak_v, peak_i) = match t.scale {
+            Scale::CircuitPeak => {
+                let (v, i) = self.kind_peaks(new);
+                (self.peak_v.max(v), self.peak_i.max(i))
             }
-            let here = old[i].abs().max(new[i].abs());
-            let (atol, kind_peak) = match u.kind {
-                UnknownKind::Voltage => (t.atol_v, self.peak_v),
-                UnknownKind::Current => (t.atol_i, self.peak_i),
+            _ => (self.peak_v, self.peak_i),
+        };
+        let mut worst: f64 = 0.0;
+        for (i, class) in self.class.iter().enumerate() {
+            let (atol, kind_peak) = match class {
+                Some(UnknownKind::Voltage) => (t.atol_v, peak_v),
+                Some(UnknownKind::Current) => (t.atol_i, peak_i),
+                None => continue,
             };
+            let here = old[i].abs().max(new[i].abs());
             let scale = match t.scale {
                 Scale::Value => here,
                 Scale::SignalPeak => self.peak[i].max(here),
                 Scale::CircuitPeak => kind_peak.max(here),
             };
-            let r = err[i].abs() / (t.lte_factor * (t.rtol * scale + atol));
+            let r = err(i).abs() / (t.lte_factor * (t.rtol * scale + atol));
             if r.is_nan() {
                 worst = f64::INFINITY;
             } else if r > worst {
@@ -240,14 +276,14 @@ impl ErrorNorm<'_> {
     }
 }
 
-/// The divided difference of order `pts.len() - 1` of each unknown, times its factorial: an estimate of
-/// the derivative of that order. The divided difference is the weighted sum
-/// sum_j x_j / prod_{k != j} (t_j - t_k) (Hairer, Norsett & Wanner, Solving ODEs I, II.9), so the
-/// weights are computed once per step and each unknown costs a few multiply-adds.
-fn derivative_estimate(pts: &[(f64, &[f64])]) -> Vec<f64> {
+/// Weights w_j such that sum_j w_j x_j is the divided difference of order `pts.len() - 1` of the
+/// points, times its factorial: an estimate of the derivative of that order. The divided difference is
+/// the weighted sum sum_j x_j / prod_{k != j} (t_j - t_k) (Hairer, Norsett & Wanner, Solving ODEs I,
+/// II.9), so the weights are computed once per step and each unknown costs a few multiply-adds.
+fn derivative_weights(pts: &[(f64, &[f64])]) -> Vec<f64> {
     let m = pts.len();
     let factorial: f64 = (1..m).map(|k| k as f64).product();
-    let weights: Vec<f64> = (0..m)
+    (0..m)
         .map(|j| {
             let denom: f64 = (0..m)
                 .filter(|&k| k != j)
@@ -255,14 +291,7 @@ fn derivative_estimate(pts: &[(f64, &[f64])]) -> Vec<f64> {
                 .product();
             factorial / denom
         })
-        .collect();
-    let mut out = vec![0.0; pts[0].1.len()];
-    for (w, (_, x)) in weights.iter().zip(pts) {
-        for (o, xi) in out.iter_mut().zip(x.iter()) {
-            *o += w * xi;
-        }
-    }
-    out
+        .collect()
 }
 
 struct Recorder<'a> {
@@ -353,8 +382,8 @@ pub fn simulate_system(
     };
     solver.newton.work = start_newton.work;
     let mut norm = ErrorNorm {
-        sys,
         settings,
+        class: ErrorNorm::classes(sys),
         peak: vec![0.0; n],
         peak_v: 0.0,
         peak_i: 0.0,
@@ -473,11 +502,12 @@ pub fn simulate_system(
 
         let p = trial.order as f64;
         let hold = solver.hold_growth(sc.hold_growth, HOLD_CEILING, main_method.solves_per_step());
+        let keep_shrinks = hold > sc.hold_growth;
         let (accepted_points, next_h): (Vec<Solved>, f64) = if sc.fixed_step.is_some() {
             (vec![trial.point], sc.fixed_step.unwrap_or(hh))
         } else {
-            let err_and_base = match &trial.estimate {
-                Estimate::Embedded(e) => Some((e.clone(), hh)),
+            let ratio = match &trial.estimate {
+                Estimate::Embedded(e) => Some(norm.ratio(|i| e[i], &solver.cur.x, &trial.point.x)),
                 Estimate::FromHistory { coefficient }
                     if window.len() >= points_needed(trial.order) =>
                 {
@@ -488,20 +518,26 @@ pub fn simulate_system(
                         .map(|(t, x)| (*t, x.as_slice()))
                         .collect();
                     pts.push((t + hh, trial.point.x.as_slice()));
-                    let d = derivative_estimate(&pts);
-                    Some((d.into_iter().map(|v| v * coefficient).collect(), hh))
+                    let weights = derivative_weights(&pts);
+                    let err = |i: usize| -> f64 {
+                        let d: f64 = weights.iter().zip(&pts).map(|(w, (_, x))| w * x[i]).sum();
+                        d * coefficient
+                    };
+                    Some(norm.ratio(err, &solver.cur.x, &trial.point.x))
                 }
                 Estimate::FromHistory { .. } => None,
             };
-            match err_and_base {
-                Some((err, base)) => {
-                    let ratio = norm.ratio(&err, &solver.cur.x, &trial.point.x);
+            match ratio {
+                Some(ratio) => {
                     let factor = step_factor(ratio, p, sc.safety);
                     if ratio <= 1.0 {
-                        (vec![trial.point], held(base, factor, hold, growth))
+                        (
+                            vec![trial.point],
+                            held(hh, factor, hold, growth, keep_shrinks),
+                        )
                     } else {
                         stats.rejected_steps += 1;
-                        h = base * factor.clamp(sc.shrink_limit, 0.9);
+                        h = hh * factor.clamp(sc.shrink_limit, 0.9);
                         continue;
                     }
                 }
@@ -509,9 +545,10 @@ pub fn simulate_system(
                     // Step doubling with the formula that was used.
                     let used = methods::method(trial.used);
                     match double_check(&mut solver, used, &trial, hh, &norm, sc.safety) {
-                        Ok(Doubled::Accept { mid, end, factor }) => {
-                            (vec![mid, end], held(hh / 2.0, factor, hold, growth))
-                        }
+                        Ok(Doubled::Accept { mid, end, factor }) => (
+                            vec![mid, end],
+                            held(hh / 2.0, factor, hold, growth, keep_shrinks),
+                        ),
                         Ok(Doubled::Reject { factor }) => {
                             stats.rejected_steps += 1;
                             let floor = sc.shrink_limit.min(DOUBLING_SHRINK_LIMIT);
@@ -601,10 +638,14 @@ fn cut_or_report(
 }
 
 /// The next step after an accepted step `h` whose error allows growth by `factor`: at most
-/// `growth_limit` times longer (the setting, or less where the method needs it), and `h` itself when the growth would be less than `hold` (a linear
-/// circuit then reuses its factored Jacobian).
-fn held(h: f64, factor: f64, hold: f64, growth_limit: f64) -> f64 {
-    if factor >= 1.0 && factor < hold {
+/// `growth_limit` times longer (the setting, or less where the method needs it), and `h` itself when the
+/// growth would be less than `hold` (a linear circuit then reuses its factored Jacobian). An accepted
+/// step whose estimate asks for a slightly shorter next step (`factor` in [safety, 1)) is also kept
+/// when `keep_shrinks`, which the driver sets when a factorization costs more than a step (the hold
+/// above its floor): the shrink would cost a factorization for certain, keeping it at worst one
+/// rejected step.
+fn held(h: f64, factor: f64, hold: f64, growth_limit: f64, keep_shrinks: bool) -> f64 {
+    if factor < hold && (factor >= 1.0 || keep_shrinks) {
         h
     } else {
         h * factor.min(growth_limit)
@@ -657,14 +698,8 @@ fn double_check(
     let half2 = half2?;
     let p = full.order as f64;
     let denom = 2.0 * (2f64.powf(p) - 1.0);
-    let err: Vec<f64> = half2
-        .point
-        .x
-        .iter()
-        .zip(&full.point.x)
-        .map(|(a, b)| (a - b) / denom)
-        .collect();
-    let ratio = norm.ratio(&err, &solver.cur.x, &half2.point.x);
+    let (fine, coarse) = (&half2.point.x, &full.point.x);
+    let ratio = norm.ratio(|i| (fine[i] - coarse[i]) / denom, &solver.cur.x, fine);
     let factor = step_factor(ratio, p, safety);
     Ok(if ratio <= 1.0 {
         Doubled::Accept {

@@ -141,12 +141,7 @@ impl Newton {
     ) -> Result<(), NewtonFailure> {
         let n = eq.size();
         if self.f.len() != n {
-            let backend = self.jac.backend();
-            *self = Newton {
-                work: self.work,
-                ..Newton::new(n)
-            };
-            self.jac.set_backend(backend);
+            self.resize(n);
         }
         let key = eq.jacobian_key();
         let mut update_ok = false;
@@ -172,29 +167,7 @@ impl Newton {
                 break;
             }
             if !cached {
-                let lu = self
-                    .jac
-                    .factor()
-                    .map_err(|Singular { column }| NewtonFailure::Singular { unknown: column })?;
-                self.work.factorizations += 1;
-                match key {
-                    Some(kk) => {
-                        let slots = if self.jac.uses_sparse() {
-                            SPARSE_CACHE_SLOTS
-                        } else {
-                            CACHE_SLOTS
-                        };
-                        if self.cache.len() >= slots {
-                            self.cache.remove(0);
-                        }
-                        self.cache.push((kk, lu));
-                        self.last_used = self.cache.len() - 1;
-                    }
-                    None => {
-                        self.last_lu = Some(lu);
-                        self.last_used = usize::MAX;
-                    }
-                }
+                self.factor_jacobian(key)?;
             }
             for (d, f) in self.dx.iter_mut().zip(&self.f) {
                 *d = -f;
@@ -232,6 +205,78 @@ impl Newton {
             worst_row,
             residual,
         })
+    }
+
+    /// Solves a linear problem, F(x) = J x - k with J constant for `key` (its `Equations::jacobian_key`),
+    /// by one solve of J: `x` holds k on entry and the solution on return. Beside Newton's single exact
+    /// step from a guess, this skips the evaluation of F; the two agree to rounding.
+    pub fn solve_linear<E: Equations>(
+        &mut self,
+        eq: &E,
+        key: u64,
+        x: &mut [f64],
+    ) -> Result<(), NewtonFailure> {
+        let n = eq.size();
+        if self.f.len() != n {
+            self.resize(n);
+        }
+        if x.iter().any(|v| !v.is_finite()) {
+            return Err(NewtonFailure::NotFinite);
+        }
+        match self.cache.iter().position(|(ck, _)| *ck == key) {
+            Some(i) => self.last_used = i,
+            None => {
+                // The Jacobian of a linear problem is the same at any point: assemble it at k.
+                self.jac.zero();
+                eq.evaluate(x, &mut self.f, &mut self.scale, Some(&mut self.jac));
+                self.factor_jacobian(Some(key))?;
+            }
+        }
+        self.last_factorization().expect("factored above").solve(x);
+        self.work.newton_iterations += 1;
+        if x.iter().any(|v| !v.is_finite()) {
+            return Err(NewtonFailure::NotFinite);
+        }
+        Ok(())
+    }
+
+    /// Fresh storage for `n` unknowns, keeping the counters and the LU choice.
+    fn resize(&mut self, n: usize) {
+        let backend = self.jac.backend();
+        *self = Newton {
+            work: self.work,
+            ..Newton::new(n)
+        };
+        self.jac.set_backend(backend);
+    }
+
+    /// Factors the assembled Jacobian and keeps it: in the cache under `key` (a constant Jacobian),
+    /// else as the last factorization.
+    fn factor_jacobian(&mut self, key: Option<u64>) -> Result<(), NewtonFailure> {
+        let lu = self
+            .jac
+            .factor()
+            .map_err(|Singular { column }| NewtonFailure::Singular { unknown: column })?;
+        self.work.factorizations += 1;
+        match key {
+            Some(kk) => {
+                let slots = if self.jac.uses_sparse() {
+                    SPARSE_CACHE_SLOTS
+                } else {
+                    CACHE_SLOTS
+                };
+                if self.cache.len() >= slots {
+                    self.cache.remove(0);
+                }
+                self.cache.push((kk, lu));
+                self.last_used = self.cache.len() - 1;
+            }
+            None => {
+                self.last_lu = Some(lu);
+                self.last_used = usize::MAX;
+            }
+        }
+        Ok(())
     }
 
     /// Every row's residual is within a few rounding errors of the terms that make it up: no iteration

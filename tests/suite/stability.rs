@@ -138,7 +138,9 @@ fn bdf2_follows_its_characteristic_roots() {
 /// Trapezoidal's R(-inf) = -1 (Hairer & Wanner, *Solving ODEs II*, IV.3): restarted with itself at an
 /// ideal step on a stiff RC ladder (time constants from about 0.25 ns to 4 us), its step-doubling
 /// estimate never falls within a tight tolerance, and the step shrinks away. The run must then say
-/// that the restart is the cause and how to fix it; the default backward-Euler restart runs.
+/// that the restart is the cause and how to fix it; the default backward-Euler restart runs. (Since
+/// `circuit_peak` measures the first step against the drive, the failure needs rtol near 1e-9; it
+/// happened at 1e-6 before, see `a_circuit_from_rest_measures_its_first_step_against_its_drive`.)
 #[test]
 fn a_trapezoidal_restart_that_fails_at_an_ideal_jump_names_the_cause() {
     let mut text = String::from(
@@ -154,7 +156,7 @@ fn a_trapezoidal_restart_that_fails_at_an_ideal_jump_names_the_cause() {
     let c = circuit(&text);
     let settings = |restart| {
         let mut s = ringtrue::settings::Settings::new(MethodName::Trapezoidal);
-        s.tolerances.rtol = 1e-6;
+        s.tolerances.rtol = 1e-9;
         s.tolerances.scale = ringtrue::settings::Scale::CircuitPeak;
         s.steps.restart = restart;
         s
@@ -173,4 +175,42 @@ fn a_trapezoidal_restart_that_fails_at_an_ideal_jump_names_the_cause() {
         ),
     }
     assert!(ringtrue::integrate::simulate(&c, &settings(Restart::BackwardEuler)).is_ok());
+}
+
+/// Regression: with `scale: circuit_peak` a circuit starting from rest measured its first step after
+/// the jump against each node's own, still tiny, value (the circuit's peak counted accepted points
+/// only), so the first step was about 2 rtol tau long and a trapezoidal restart failed on this
+/// 100-stage ideal-step ladder at rtol 1e-6. The peak now includes the trial point, whose source node
+/// is at 1 V. Backward Euler's first-step error on the first node (tau = RC / 2 = 0.5 ns, from the
+/// drive at 1 V) is about (h / tau)^2 / 2 V (Taylor expansion, common practice), which the tolerance
+/// rtol x 1 V allows up to h = tau sqrt(2 rtol), 7e-12 s at rtol 1e-4; measured against the node's own
+/// value h / tau V instead, only up to h = 2 rtol tau = 1e-13 s.
+#[test]
+fn a_circuit_from_rest_measures_its_first_step_against_its_drive() {
+    let mut text = String::from(
+        "name: ideal-step-ladder\nelements:\n  - { kind: voltage_source, name: vin, nodes: [n0, gnd], waveform: { step: { from: 0, to: 1, at: 0, rise: 0 } } }\n",
+    );
+    for k in 1..=100 {
+        text.push_str(&format!(
+            "  - {{ kind: resistor, name: r{k}, nodes: [n{}, n{k}], value: 1k }}\n  - {{ kind: capacitor, name: c{k}, nodes: [n{k}, gnd], value: 1p }}\n",
+            k - 1
+        ));
+    }
+    text.push_str("run: { stop: 20u }\nwatch: [n100]\n");
+    let c = circuit(&text);
+    let settings = |rtol, restart| {
+        let mut s = ringtrue::settings::Settings::new(MethodName::Trapezoidal);
+        s.tolerances.rtol = rtol;
+        s.tolerances.scale = ringtrue::settings::Scale::CircuitPeak;
+        s.steps.restart = restart;
+        s
+    };
+    let run = ringtrue::integrate::simulate(&c, &settings(1e-4, Restart::BackwardEuler))
+        .expect("the ladder runs");
+    let first = run.trajectory.times[1];
+    assert!(
+        first > 1e-12 && first < 1e-10,
+        "first accepted point at {first} s, expected near tau sqrt(2 rtol) = 7e-12 s"
+    );
+    assert!(ringtrue::integrate::simulate(&c, &settings(1e-6, Restart::Same)).is_ok());
 }
