@@ -177,13 +177,26 @@ impl Matrix {
     pub fn set_combination(&mut self, alpha: f64, c: &Matrix, g: &Matrix) {
         self.zero();
         for r in 0..self.n.min(c.n) {
-            for (col, v) in c.row(r) {
-                self.add(r, col, alpha * v);
-            }
+            self.add_row_scaled(r, &c.rows[r], alpha);
         }
         for r in 0..self.n.min(g.n) {
-            for (col, v) in g.row(r) {
-                self.add(r, col, v);
+            self.add_row_scaled(r, &g.rows[r], 1.0);
+        }
+    }
+
+    /// Adds `factor * other` to row `r`, walking the two sorted column lists together (the same sums,
+    /// in the same order, as `add` entry by entry, without a search per entry).
+    fn add_row_scaled(&mut self, r: usize, other: &Row, factor: f64) {
+        let mut p = 0;
+        for (&col, &v) in other.cols.iter().zip(&other.vals) {
+            let cols = &self.rows[r].cols;
+            while p < cols.len() && cols[p] < col {
+                p += 1;
+            }
+            if p < cols.len() && cols[p] == col {
+                self.rows[r].vals[p] += factor * v;
+            } else {
+                self.add(r, col, factor * v);
             }
         }
     }

@@ -217,14 +217,17 @@ impl ErrorNorm<'_> {
             .collect()
     }
 
-    /// The largest |x_i| of each kind over the unknowns that control the step.
+    /// The largest |x_i| of each kind over the unknowns that control the step (a NaN is skipped, as
+    /// `f64::max` skips it). Plain comparisons keep this pass, run every step, free of `max`'s NaN
+    /// handling.
     fn kind_peaks(&self, x: &[f64]) -> (f64, f64) {
         let (mut v_peak, mut i_peak) = (0.0f64, 0.0f64);
         for (class, v) in self.class.iter().zip(x) {
+            let a = v.abs();
             match class {
-                Some(UnknownKind::Voltage) => v_peak = v_peak.max(v.abs()),
-                Some(UnknownKind::Current) => i_peak = i_peak.max(v.abs()),
-                None => {}
+                Some(UnknownKind::Voltage) if a > v_peak => v_peak = a,
+                Some(UnknownKind::Current) if a > i_peak => i_peak = a,
+                _ => {}
             }
         }
         (v_peak, i_peak)
@@ -232,7 +235,10 @@ impl ErrorNorm<'_> {
 
     fn observe(&mut self, x: &[f64]) {
         for (p, v) in self.peak.iter_mut().zip(x) {
-            *p = p.max(v.abs());
+            let a = v.abs();
+            if a > *p {
+                *p = a;
+            }
         }
         let (v_peak, i_peak) = self.kind_peaks(x);
         self.peak_v = self.peak_v.max(v_peak);
@@ -364,9 +370,13 @@ pub fn simulate_system(
 
     let mut solver = Solver {
         sys,
+        // The start's Newton carries on: its Jacobian keeps the pivot sequence its sparse LU learned,
+        // so the first step refactors instead of searching for pivots again (a pivot that no longer
+        // suits the step matrix makes the LU pivot anew). Its cached factorizations are of other
+        // matrices and are dropped.
         newton: {
-            let mut nw = Newton::for_system(sys);
-            nw.set_backend(settings.linear_solver);
+            let mut nw = start_newton;
+            nw.forget();
             nw
         },
         tol: NewtonTolerances::from_step_tolerances(&settings.tolerances, 30),
@@ -380,7 +390,6 @@ pub fn simulate_system(
         segment_start: 0.0,
         step_entries: (sys.g.stored() + sys.c.stored()) as f64,
     };
-    solver.newton.work = start_newton.work;
     let mut norm = ErrorNorm {
         settings,
         class: ErrorNorm::classes(sys),
@@ -518,12 +527,21 @@ pub fn simulate_system(
                         .map(|(t, x)| (*t, x.as_slice()))
                         .collect();
                     pts.push((t + hh, trial.point.x.as_slice()));
-                    let weights = derivative_weights(&pts);
-                    let err = |i: usize| -> f64 {
-                        let d: f64 = weights.iter().zip(&pts).map(|(w, (_, x))| w * x[i]).sum();
-                        d * coefficient
-                    };
-                    Some(norm.ratio(err, &solver.cur.x, &trial.point.x))
+                    let w = derivative_weights(&pts);
+                    let c = *coefficient;
+                    Some(match pts.as_slice() {
+                        // The second-order methods' four points, spelled out for the hot path.
+                        [(_, a), (_, b), (_, d), (_, e)] => norm.ratio(
+                            |i| (w[0] * a[i] + w[1] * b[i] + w[2] * d[i] + w[3] * e[i]) * c,
+                            &solver.cur.x,
+                            &trial.point.x,
+                        ),
+                        _ => norm.ratio(
+                            |i| w.iter().zip(&pts).map(|(w, (_, x))| w * x[i]).sum::<f64>() * c,
+                            &solver.cur.x,
+                            &trial.point.x,
+                        ),
+                    })
                 }
                 Estimate::FromHistory { .. } => None,
             };
