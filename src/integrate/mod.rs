@@ -101,10 +101,11 @@ pub fn initial_state(
 /// the non-LU part of a step is about two solves of the ladder's factors.
 const STEP_WORK_PER_ENTRY: f64 = 2.0;
 const STEP_WORK_FIXED: f64 = 2000.0;
-/// The most a held step may have to grow before it grows: a step kept until it could grow by g runs
-/// on average at about (g - 1) / (g ln g) of its allowed length (0.72 at g = 2, 0.5 at g = 5), so the
-/// hold saves factorizations only up to a point.
-const HOLD_CEILING: f64 = 2.0;
+/// The most a held step may have to grow before it grows, whatever the cost model says: a step kept
+/// until it could grow by g runs on average at about (g - 1) / (g ln g) of its allowed length (0.72 at
+/// g = 2, 0.61 at g = 3), so past this the steps it adds are sure and the factorizations it saves are
+/// an estimate.
+const HOLD_CEILING: f64 = 3.0;
 
 /// The driver's view of the history, and its stage solver.
 struct Solver<'a> {
@@ -135,21 +136,61 @@ impl Solver<'_> {
             _ => self.cur.x.clone(),
         }
     }
-    /// The growth below which the present step is kept. Keeping a step that could grow by f costs one
-    /// step of work S per step length; growing costs a factorization F once, then S per f step lengths.
-    /// Growing pays off in the next step when (F + S) / f < S, i.e. f > 1 + F / S: the hold is that,
-    /// kept between `floor` (the `hold_growth` setting) and `ceiling` (`HOLD_CEILING`). F and S come
-    /// from the last factorization's operation counts plus the rest of a step (residuals, products,
-    /// error norm), which the floor bench measures at about `STEP_WORK_PER_ENTRY` operations per
-    /// stored matrix entry and `STEP_WORK_FIXED` per step. The dense LU gives no counts: `floor`.
-    fn hold_growth(&self, floor: f64, ceiling: f64, solves: f64) -> f64 {
+    /// The growth below which the present step is kept. After a breakpoint the allowed step of a
+    /// smooth response grows in proportion to the time since it, h_opt = c (t - t_b) (the run climbs
+    /// the decades of its time constants). Keeping the step until h_opt = g h and then growing to
+    /// h_opt costs a factorization F and (g - 1) / c steps of work S per factor g of elapsed time, so
+    /// per unit of ln(t - t_b) the cost is (F + S (g - 1) / c) / ln g, least where
+    /// g ln g - g + 1 = c F / S (set the derivative in g to zero). The hold is that g, kept between
+    /// `floor` (the `hold_growth` setting) and `ceiling` (`HOLD_CEILING`); `share` is the estimate of
+    /// c, the allowed step over the time since the breakpoint. F and S come from the last
+    /// factorization's operation counts plus the rest of a step (residuals, products, error norm),
+    /// which the floor bench measures at about `STEP_WORK_PER_ENTRY` operations per stored matrix
+    /// entry and `STEP_WORK_FIXED` per step. The dense LU gives no counts: `floor`.
+    fn hold_growth(&self, floor: f64, ceiling: f64, solves: f64, share: f64) -> f64 {
         let Some((factor, solve)) = self.newton.last_factorization().and_then(|lu| lu.flops())
         else {
             return floor;
         };
         let step = solves * solve + STEP_WORK_PER_ENTRY * self.step_entries + STEP_WORK_FIXED;
-        (1.0 + factor / step).clamp(floor, ceiling.max(floor))
+        best_hold(
+            share.clamp(0.0, 1.0) * factor / step,
+            floor,
+            ceiling.max(floor),
+        )
     }
+
+    /// Whether a factorization costs more than a step, by the same counts (false for the dense LU).
+    fn factoring_costs_more_than_a_step(&self, solves: f64) -> bool {
+        self.newton
+            .last_factorization()
+            .and_then(|lu| lu.flops())
+            .is_some_and(|(factor, solve)| {
+                factor > solves * solve + STEP_WORK_PER_ENTRY * self.step_entries + STEP_WORK_FIXED
+            })
+    }
+}
+
+/// The g in [floor, ceiling] with g ln g - g + 1 = k (the left side grows with g from 0 at g = 1), by
+/// bisection.
+fn best_hold(k: f64, floor: f64, ceiling: f64) -> f64 {
+    let phi = |g: f64| g * g.ln() - g + 1.0;
+    if k.is_nan() || k <= phi(floor) {
+        return floor;
+    }
+    if k >= phi(ceiling) {
+        return ceiling;
+    }
+    let (mut lo, mut hi) = (floor, ceiling);
+    for _ in 0..40 {
+        let mid = 0.5 * (lo + hi);
+        if phi(mid) < k {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    0.5 * (lo + hi)
 }
 
 impl StageSolver for Solver<'_> {
@@ -510,8 +551,21 @@ pub fn simulate_system(
         }
 
         let p = trial.order as f64;
-        let hold = solver.hold_growth(sc.hold_growth, HOLD_CEILING, main_method.solves_per_step());
-        let keep_shrinks = hold > sc.hold_growth;
+        let hold = |solver: &Solver, factor: f64| {
+            let since = t + hh - solver.segment_start;
+            let share = if since > 0.0 {
+                factor * hh / since
+            } else {
+                1.0
+            };
+            solver.hold_growth(
+                sc.hold_growth,
+                HOLD_CEILING,
+                main_method.solves_per_step(),
+                share,
+            )
+        };
+        let keep_shrinks = solver.factoring_costs_more_than_a_step(main_method.solves_per_step());
         let (accepted_points, next_h): (Vec<Solved>, f64) = if sc.fixed_step.is_some() {
             (vec![trial.point], sc.fixed_step.unwrap_or(hh))
         } else {
@@ -551,7 +605,7 @@ pub fn simulate_system(
                     if ratio <= 1.0 {
                         (
                             vec![trial.point],
-                            held(hh, factor, hold, growth, keep_shrinks),
+                            held(hh, factor, hold(&solver, factor), growth, keep_shrinks),
                         )
                     } else {
                         stats.rejected_steps += 1;
@@ -565,7 +619,13 @@ pub fn simulate_system(
                     match double_check(&mut solver, used, &trial, hh, &norm, sc.safety) {
                         Ok(Doubled::Accept { mid, end, factor }) => (
                             vec![mid, end],
-                            held(hh / 2.0, factor, hold, growth, keep_shrinks),
+                            held(
+                                hh / 2.0,
+                                factor,
+                                hold(&solver, factor),
+                                growth,
+                                keep_shrinks,
+                            ),
                         ),
                         Ok(Doubled::Reject { factor }) => {
                             stats.rejected_steps += 1;
@@ -659,8 +719,7 @@ fn cut_or_report(
 /// `growth_limit` times longer (the setting, or less where the method needs it), and `h` itself when the
 /// growth would be less than `hold` (a linear circuit then reuses its factored Jacobian). An accepted
 /// step whose estimate asks for a slightly shorter next step (`factor` in [safety, 1)) is also kept
-/// when `keep_shrinks`, which the driver sets when a factorization costs more than a step (the hold
-/// above its floor): the shrink would cost a factorization for certain, keeping it at worst one
+/// when `keep_shrinks`, which the driver sets when a factorization costs more than a step: the shrink would cost a factorization for certain, keeping it at worst one
 /// rejected step.
 fn held(h: f64, factor: f64, hold: f64, growth_limit: f64, keep_shrinks: bool) -> f64 {
     if factor < hold && (factor >= 1.0 || keep_shrinks) {
@@ -728,4 +787,21 @@ fn double_check(
     } else {
         Doubled::Reject { factor }
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::best_hold;
+
+    /// The hold solves g ln g - g + 1 = k inside its bounds, and clamps outside them.
+    #[test]
+    fn best_hold_inverts_its_cost_equation() {
+        let phi = |g: f64| g * g.ln() - g + 1.0;
+        for g in [1.6, 2.0, 2.5, 2.9] {
+            assert!((best_hold(phi(g), 1.5, 3.0) - g).abs() < 1e-9, "g = {g}");
+        }
+        assert_eq!(best_hold(0.0, 1.5, 3.0), 1.5);
+        assert_eq!(best_hold(f64::NAN, 1.5, 3.0), 1.5);
+        assert_eq!(best_hold(100.0, 1.5, 3.0), 3.0);
+    }
 }
