@@ -258,8 +258,18 @@ impl Matrix {
 
     /// LU factorization. A matrix singular in some unknown reports that unknown's column.
     pub fn factor(&self) -> Result<Lu, Singular> {
+        self.factor_reusing(None)
+    }
+
+    /// `factor`, reusing the storage of `spare`, a factorization no longer needed (the result is the
+    /// same as `factor`'s).
+    pub fn factor_reusing(&self, spare: Option<Lu>) -> Result<Lu, Singular> {
         if self.uses_sparse() {
-            self.factor_sparse().map(|s| Lu::Sparse(Box::new(s)))
+            let spare = match spare {
+                Some(Lu::Sparse(f)) => Some(*f),
+                _ => None,
+            };
+            self.factor_sparse(spare).map(|s| Lu::Sparse(Box::new(s)))
         } else {
             self.factor_dense().map(Lu::Dense)
         }
@@ -333,7 +343,7 @@ impl Matrix {
         Ok(DenseLu { n, lu, perm })
     }
 
-    fn factor_sparse(&self) -> Result<Factors, Singular> {
+    fn factor_sparse(&self, spare: Option<Factors>) -> Result<Factors, Singular> {
         let plan = Arc::clone(self.plan());
         let mut values = vec![0.0; plan.row_idx.len()];
         for (r, row) in self.rows.iter().enumerate() {
@@ -350,7 +360,7 @@ impl Matrix {
         };
         let mut learned = self.learned.0.lock().unwrap_or_else(|e| e.into_inner());
         if let Some(structure) = learned.as_ref() {
-            if let Ok(f) = sparse_lu::refactor(&a, structure) {
+            if let Ok(f) = sparse_lu::refactor_reusing(&a, structure, spare) {
                 return Ok(f);
             }
         }

@@ -257,12 +257,27 @@ pub fn factor_pivoting(a: &Csc<'_>, q: &[usize]) -> Result<Factors, Failure> {
 /// A factorization that reuses `structure`'s pivots and patterns (the matrix must have the pattern the
 /// structure was learned on).
 pub fn refactor(a: &Csc<'_>, structure: &std::sync::Arc<Structure>) -> Result<Factors, Failure> {
+    refactor_reusing(a, structure, None)
+}
+
+/// `refactor`, writing into the value arrays of `spare` (factors no longer needed) where given: a large
+/// circuit's L and U are megabytes, and fresh arrays cost their page faults at every factorization.
+/// Every value is overwritten, so the result does not depend on what `spare` held.
+pub fn refactor_reusing(
+    a: &Csc<'_>,
+    structure: &std::sync::Arc<Structure>,
+    spare: Option<Factors>,
+) -> Result<Factors, Failure> {
     let s = structure;
     let n = s.n;
     let mut x = vec![0.0; n];
-    let mut l_val = vec![0.0; s.l_idx.len()];
-    let mut u_val = vec![0.0; s.u_idx.len()];
-    let mut u_inv = vec![0.0; n];
+    let (mut l_val, mut u_val, mut u_inv) = match spare {
+        Some(f) => (f.l_val, f.u_val, f.u_inv),
+        None => (Vec::new(), Vec::new(), Vec::new()),
+    };
+    l_val.resize(s.l_idx.len(), 0.0);
+    u_val.resize(s.u_idx.len(), 0.0);
+    u_inv.resize(n, 0.0);
     for (k, &col) in s.q.iter().enumerate() {
         let mut scale = 0.0f64;
         for (i, v) in a.col(col) {

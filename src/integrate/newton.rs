@@ -253,21 +253,27 @@ impl Newton {
     /// Factors the assembled Jacobian and keeps it: in the cache under `key` (a constant Jacobian),
     /// else as the last factorization.
     fn factor_jacobian(&mut self, key: Option<u64>) -> Result<(), NewtonFailure> {
+        let slots = if self.jac.uses_sparse() {
+            SPARSE_CACHE_SLOTS
+        } else {
+            CACHE_SLOTS
+        };
+        // The factorization this one replaces lends it its storage.
+        let spare = match key {
+            Some(_) if self.cache.len() >= slots => {
+                self.last_used = usize::MAX;
+                Some(self.cache.remove(0).1)
+            }
+            Some(_) => None,
+            None => self.last_lu.take(),
+        };
         let lu = self
             .jac
-            .factor()
+            .factor_reusing(spare)
             .map_err(|Singular { column }| NewtonFailure::Singular { unknown: column })?;
         self.work.factorizations += 1;
         match key {
             Some(kk) => {
-                let slots = if self.jac.uses_sparse() {
-                    SPARSE_CACHE_SLOTS
-                } else {
-                    CACHE_SLOTS
-                };
-                if self.cache.len() >= slots {
-                    self.cache.remove(0);
-                }
                 self.cache.push((kk, lu));
                 self.last_used = self.cache.len() - 1;
             }
