@@ -102,7 +102,7 @@ fn main() {
                 _ => 2.0 / h,
             };
             let mut jac = sys.jacobian.clone();
-            jac.set_combination(alpha, &sys.c, &sys.g);
+            jac.set_combination(alpha, sys.c(), sys.g());
             let reps = 20;
             let (factor_s, lu) = best_of(reps, || jac.factor().expect("the Jacobian factors"));
             // A fresh right-hand side each time (repeated in-place solves would grow it to inf/NaN);

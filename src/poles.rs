@@ -58,11 +58,11 @@ pub fn poles(circuit: &Circuit, settings: &Settings) -> Result<Vec<Pole>, Refere
     let x0 =
         integrate::initial_state(&sys, settings, &mut newton).map_err(ReferenceError::Start)?;
     let mut gj = Matrix::new(n);
-    gj.set_combination(0.0, &sys.c, &sys.g);
+    gj.set_combination(0.0, sys.c(), sys.g());
     let mut scratch = vec![0.0; n];
     sys.current_into(&x0, 0.0, &mut scratch, Some(&mut gj));
     let mut cj = Matrix::new(n);
-    cj.set_combination(1.0, &sys.c, &Matrix::new(n));
+    cj.set_combination(1.0, sys.c(), &Matrix::new(n));
     sys.add_charge_jacobian(&x0, 1.0, &mut cj);
     let c = cj.to_dense();
     let g = gj.to_dense();

@@ -74,6 +74,40 @@ impl PartialEq for Matrix {
     }
 }
 
+/// A finished matrix's entries packed row after row in three flat arrays, for the products that run
+/// every step: a large circuit's rows, each in its own allocation, scatter over memory, and the
+/// products then wait on cache misses.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Packed {
+    row_ptr: Vec<usize>,
+    cols: Vec<usize>,
+    vals: Vec<f64>,
+}
+
+impl Packed {
+    /// Adds `self * x` to `y` (the same sums in the same order as `Matrix::mul_vec_add`).
+    pub fn mul_vec_add(&self, x: &[f64], y: &mut [f64]) {
+        for (w, yr) in self.row_ptr.windows(2).zip(y.iter_mut()) {
+            let mut s = 0.0;
+            for (&c, &a) in self.cols[w[0]..w[1]].iter().zip(&self.vals[w[0]..w[1]]) {
+                s += a * x[c];
+            }
+            *yr += s;
+        }
+    }
+
+    /// Adds |self_rj x_j| * factor over each row to `out` (as `Matrix::abs_terms_add`).
+    pub fn abs_terms_add(&self, x: &[f64], factor: f64, out: &mut [f64]) {
+        for (w, o) in self.row_ptr.windows(2).zip(out.iter_mut()) {
+            let mut s = 0.0;
+            for (&c, &a) in self.cols[w[0]..w[1]].iter().zip(&self.vals[w[0]..w[1]]) {
+                s += (a * x[c]).abs();
+            }
+            *o += factor.abs() * s;
+        }
+    }
+}
+
 /// A factorization that found no usable pivot in `column`.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct Singular {
@@ -226,6 +260,24 @@ impl Matrix {
                 s += (a * x[c]).abs();
             }
             *o += factor.abs() * s;
+        }
+    }
+
+    /// The entries as they stand, packed for fast products.
+    pub fn packed(&self) -> Packed {
+        let mut row_ptr = Vec::with_capacity(self.n + 1);
+        row_ptr.push(0);
+        let mut cols = Vec::with_capacity(self.stored());
+        let mut vals = Vec::with_capacity(self.stored());
+        for row in &self.rows {
+            cols.extend_from_slice(&row.cols);
+            vals.extend_from_slice(&row.vals);
+            row_ptr.push(cols.len());
+        }
+        Packed {
+            row_ptr,
+            cols,
+            vals,
         }
     }
 

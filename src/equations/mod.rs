@@ -12,7 +12,7 @@ pub mod matrix;
 pub mod sparse_lu;
 
 use crate::circuit::{Circuit, DiodeModel, ElementKind, Probe, SwitchModel, Waveform};
-use matrix::Matrix;
+use matrix::{Matrix, Packed};
 use std::collections::HashMap;
 
 /// What an unknown measures.
@@ -112,8 +112,12 @@ pub struct System {
     pub row_kinds: Vec<UnknownKind>,
     /// Rows that hold a charge or flux; the others are algebraic.
     pub dynamic_rows: Vec<bool>,
-    pub g: Matrix,
-    pub c: Matrix,
+    /// The conductance and capacitance matrices, fixed once built (read them with `g()` and `c()`).
+    g: Matrix,
+    c: Matrix,
+    /// Packed copies of `g` and `c` for the products of every step.
+    g_packed: Packed,
+    c_packed: Packed,
     sources: Vec<SourceStamp>,
     pub diodes: Vec<DiodeStamp>,
     switches: Vec<SwitchStamp>,
@@ -488,6 +492,8 @@ impl System {
             unknowns,
             row_kinds,
             dynamic_rows,
+            g_packed: g.packed(),
+            c_packed: c.packed(),
             g,
             c,
             sources,
@@ -504,6 +510,16 @@ impl System {
 
     pub fn size(&self) -> usize {
         self.unknowns.len()
+    }
+
+    /// The constant conductances: i(x) = G x plus the nonlinear currents.
+    pub fn g(&self) -> &Matrix {
+        &self.g
+    }
+
+    /// The constant capacitances and inductances: q(x) = C x plus the nonlinear charges.
+    pub fn c(&self) -> &Matrix {
+        &self.c
     }
 
     /// The source vector b(t), every waveform scaled by `factor` (1 except during source stepping).
@@ -527,7 +543,7 @@ impl System {
     /// q(x): the linear charges and fluxes plus the diodes' stored charge.
     pub fn charge_into(&self, x: &[f64], q: &mut [f64]) {
         q.fill(0.0);
-        self.c.mul_vec_add(x, q);
+        self.c_packed.mul_vec_add(x, q);
         for d in &self.diodes {
             if d.model.junction_capacitance == 0.0 && d.model.transit_time == 0.0 {
                 continue;
@@ -547,7 +563,7 @@ impl System {
     /// time-varying part; the caller adds the constant G).
     pub fn current_into(&self, x: &[f64], t: f64, out: &mut [f64], mut jac: Option<&mut Matrix>) {
         out.fill(0.0);
-        self.g.mul_vec_add(x, out);
+        self.g_packed.mul_vec_add(x, out);
         for d in &self.diodes {
             let v = volt(x, d.anode) - volt(x, d.cathode);
             let p = devices::junction(&d.model, v);
@@ -581,9 +597,9 @@ impl System {
     /// few rounding errors of this is as converged as the arithmetic allows.
     pub fn term_magnitudes(&self, x: &[f64], t: f64, alpha: f64, out: &mut [f64]) {
         out.fill(0.0);
-        self.g.abs_terms_add(x, 1.0, out);
+        self.g_packed.abs_terms_add(x, 1.0, out);
         if alpha != 0.0 {
-            self.c.abs_terms_add(x, alpha, out);
+            self.c_packed.abs_terms_add(x, alpha, out);
         }
         for d in &self.diodes {
             let v = volt(x, d.anode) - volt(x, d.cathode);

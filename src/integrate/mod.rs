@@ -429,7 +429,7 @@ pub fn simulate_system(
         },
         prev: None,
         segment_start: 0.0,
-        step_entries: (sys.g.stored() + sys.c.stored()) as f64,
+        step_entries: (sys.g().stored() + sys.c().stored()) as f64,
     };
     let mut norm = ErrorNorm {
         settings,

@@ -355,7 +355,7 @@ impl Equations for Stage<'_> {
         let mut b = vec![0.0; n];
         let mut jac = jac;
         if let Some(j) = jac.as_deref_mut() {
-            j.set_combination(self.alpha, &self.sys.c, &self.sys.g);
+            j.set_combination(self.alpha, self.sys.c(), self.sys.g());
             self.sys.add_charge_jacobian(x, self.alpha, j);
             if self.shunt > 0.0 {
                 for r in 0..self.sys.node_count {

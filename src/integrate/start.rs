@@ -104,7 +104,7 @@ impl Equations for Held<'_> {
         let mut b = vec![0.0; n];
         let mut jsys = jac.is_some().then(|| self.sys.jacobian.clone());
         if let Some(j) = jsys.as_mut() {
-            j.set_combination(0.0, &self.sys.c, &self.sys.g);
+            j.set_combination(0.0, self.sys.c(), self.sys.g());
         }
         self.sys.current_into(xs, 0.0, f_sys, jsys.as_mut());
         self.sys.sources_into(0.0, 1.0, &mut b);

@@ -204,8 +204,8 @@ impl Exact {
         }
         let sys = System::new(circuit);
         let n = sys.size();
-        let c = sys.c.to_dense();
-        let g = sys.g.to_dense();
+        let c = sys.c().to_dense();
+        let g = sys.g().to_dense();
         let red = Reduction::new(&c, &g)?;
         let Reduction {
             r,

@@ -21,7 +21,7 @@ fn compare_solves(label: &str, text: &str) {
     for frac in [1e-6, 1e-4, 1e-2, 1e-1] {
         let alpha = 1.0 / (frac * c.run.stop);
         let mut jac = sys.jacobian.clone();
-        jac.set_combination(alpha, &sys.c, &sys.g);
+        jac.set_combination(alpha, sys.c(), sys.g());
         let mut scratch = vec![0.0; n];
         sys.current_into(&vec![0.0; n], 0.0, &mut scratch, Some(&mut jac));
         let solve = |b: Backend| {
