@@ -277,7 +277,7 @@ pub struct StepControl {
     /// A proposed growth by less than this factor keeps the present step, and with it the factored
     /// Jacobian of a linear circuit (1 turns holding off). Hairer & Wanner's RADAU5 keeps the step for
     /// growth in [1, 1.2] (Solving ODEs II, IV.8, from memory); a refactorization costs several
-    /// solves, so we hold a little longer, and the driver holds up to growth 2 when the sparse LU's
+    /// solves, so we hold a little longer, and the driver holds up to growth 3 when the sparse LU's
     /// operation counts say a refactorization costs much more than a step (`integrate::hold_growth`).
     pub hold_growth: f64,
     /// Smallest factor by which a rejected step is shortened.
