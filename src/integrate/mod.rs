@@ -551,10 +551,11 @@ pub fn simulate_system(
         }
 
         let p = trial.order as f64;
-        let hold = |solver: &Solver, factor: f64| {
+        // `base` is the step the estimate's `factor` applies to (h, or h / 2 after step doubling).
+        let hold = |solver: &Solver, factor: f64, base: f64| {
             let since = t + hh - solver.segment_start;
             let share = if since > 0.0 {
-                factor * hh / since
+                factor * base / since
             } else {
                 1.0
             };
@@ -605,7 +606,7 @@ pub fn simulate_system(
                     if ratio <= 1.0 {
                         (
                             vec![trial.point],
-                            held(hh, factor, hold(&solver, factor), growth, keep_shrinks),
+                            held(hh, factor, hold(&solver, factor, hh), growth, keep_shrinks),
                         )
                     } else {
                         stats.rejected_steps += 1;
@@ -622,7 +623,7 @@ pub fn simulate_system(
                             held(
                                 hh / 2.0,
                                 factor,
-                                hold(&solver, factor),
+                                hold(&solver, factor, hh / 2.0),
                                 growth,
                                 keep_shrinks,
                             ),
