@@ -327,7 +327,7 @@ struct SettingFlags {
     /// Most steps (accepted and rejected) the run may take.
     #[arg(long = "step-budget")]
     step_budget: Option<u64>,
-    /// LU for the Jacobian: auto (dense up to 64 unknowns, sparse above), dense or sparse.
+    /// LU for the Jacobian: auto (dense up to 12 unknowns, sparse above), dense or sparse.
     #[arg(long = "linear-solver", value_parser = named::<ringtrue::settings::Backend>)]
     linear_solver: Option<ringtrue::settings::Backend>,
 }
