@@ -135,14 +135,9 @@ fn bdf2_follows_its_characteristic_roots() {
     }
 }
 
-/// Trapezoidal's R(-inf) = -1 (Hairer & Wanner, *Solving ODEs II*, IV.3): restarted with itself at an
-/// ideal step on a stiff RC ladder (time constants from about 0.25 ns to 4 us), its step-doubling
-/// estimate never falls within a tight tolerance, and the step shrinks away. The run must then say
-/// that the restart is the cause and how to fix it; the default backward-Euler restart runs. (Since
-/// `circuit_peak` measures the first step against the drive, the failure needs rtol near 1e-9; it
-/// happened at 1e-6 before, see `a_circuit_from_rest_measures_its_first_step_against_its_drive`.)
-#[test]
-fn a_trapezoidal_restart_that_fails_at_an_ideal_jump_names_the_cause() {
+/// A 100-stage RC ladder (1 kOhm, 1 pF) from rest, driven by an ideal 1 V step at t = 0: time constants
+/// from about 0.25 ns to 4 us.
+fn ideal_step_ladder() -> ringtrue::circuit::Circuit {
     let mut text = String::from(
         "name: ideal-step-ladder\nelements:\n  - { kind: voltage_source, name: vin, nodes: [n0, gnd], waveform: { step: { from: 0, to: 1, at: 0, rise: 0 } } }\n",
     );
@@ -153,15 +148,28 @@ fn a_trapezoidal_restart_that_fails_at_an_ideal_jump_names_the_cause() {
         ));
     }
     text.push_str("run: { stop: 20u }\nwatch: [n100]\n");
-    let c = circuit(&text);
-    let settings = |restart| {
-        let mut s = ringtrue::settings::Settings::new(MethodName::Trapezoidal);
-        s.tolerances.rtol = 1e-9;
-        s.tolerances.scale = ringtrue::settings::Scale::CircuitPeak;
-        s.steps.restart = restart;
-        s
-    };
-    match ringtrue::integrate::simulate(&c, &settings(Restart::Same)) {
+    circuit(&text)
+}
+
+/// Trapezoidal at `rtol` relative to the circuit's peak, with the given restart after a jump.
+fn trapezoidal_circuit_peak(rtol: f64, restart: Restart) -> ringtrue::settings::Settings {
+    let mut s = ringtrue::settings::Settings::new(MethodName::Trapezoidal);
+    s.tolerances.rtol = rtol;
+    s.tolerances.scale = ringtrue::settings::Scale::CircuitPeak;
+    s.steps.restart = restart;
+    s
+}
+
+/// Trapezoidal's R(-inf) = -1 (Hairer & Wanner, *Solving ODEs II*, IV.3): restarted with itself at an
+/// ideal step on a stiff RC ladder (time constants from about 0.25 ns to 4 us), its step-doubling
+/// estimate never falls within a tight tolerance, and the step shrinks away. The run must then say
+/// that the restart is the cause and how to fix it; the default backward-Euler restart runs. (Since
+/// `circuit_peak` measures the first step against the drive, the failure needs rtol near 1e-9; it
+/// happened at 1e-6 before, see `a_circuit_from_rest_measures_its_first_step_against_its_drive`.)
+#[test]
+fn a_trapezoidal_restart_that_fails_at_an_ideal_jump_names_the_cause() {
+    let c = ideal_step_ladder();
+    match ringtrue::integrate::simulate(&c, &trapezoidal_circuit_peak(1e-9, Restart::Same)) {
         Err(e @ ringtrue::integrate::RunError::StepTooSmallAfterJump { .. }) => {
             let msg = e.to_string();
             assert!(
@@ -174,7 +182,11 @@ fn a_trapezoidal_restart_that_fails_at_an_ideal_jump_names_the_cause() {
             other.map(|r| r.stats)
         ),
     }
-    assert!(ringtrue::integrate::simulate(&c, &settings(Restart::BackwardEuler)).is_ok());
+    assert!(ringtrue::integrate::simulate(
+        &c,
+        &trapezoidal_circuit_peak(1e-9, Restart::BackwardEuler)
+    )
+    .is_ok());
 }
 
 /// Regression: with `scale: circuit_peak` a circuit starting from rest measured its first step after
@@ -187,30 +199,16 @@ fn a_trapezoidal_restart_that_fails_at_an_ideal_jump_names_the_cause() {
 /// value h / tau V instead, only up to h = 2 rtol tau = 1e-13 s.
 #[test]
 fn a_circuit_from_rest_measures_its_first_step_against_its_drive() {
-    let mut text = String::from(
-        "name: ideal-step-ladder\nelements:\n  - { kind: voltage_source, name: vin, nodes: [n0, gnd], waveform: { step: { from: 0, to: 1, at: 0, rise: 0 } } }\n",
-    );
-    for k in 1..=100 {
-        text.push_str(&format!(
-            "  - {{ kind: resistor, name: r{k}, nodes: [n{}, n{k}], value: 1k }}\n  - {{ kind: capacitor, name: c{k}, nodes: [n{k}, gnd], value: 1p }}\n",
-            k - 1
-        ));
-    }
-    text.push_str("run: { stop: 20u }\nwatch: [n100]\n");
-    let c = circuit(&text);
-    let settings = |rtol, restart| {
-        let mut s = ringtrue::settings::Settings::new(MethodName::Trapezoidal);
-        s.tolerances.rtol = rtol;
-        s.tolerances.scale = ringtrue::settings::Scale::CircuitPeak;
-        s.steps.restart = restart;
-        s
-    };
-    let run = ringtrue::integrate::simulate(&c, &settings(1e-4, Restart::BackwardEuler))
-        .expect("the ladder runs");
+    let c = ideal_step_ladder();
+    let run =
+        ringtrue::integrate::simulate(&c, &trapezoidal_circuit_peak(1e-4, Restart::BackwardEuler))
+            .expect("the ladder runs");
     let first = run.trajectory.times[1];
     assert!(
         first > 1e-12 && first < 1e-10,
         "first accepted point at {first} s, expected near tau sqrt(2 rtol) = 7e-12 s"
     );
-    assert!(ringtrue::integrate::simulate(&c, &settings(1e-6, Restart::Same)).is_ok());
+    assert!(
+        ringtrue::integrate::simulate(&c, &trapezoidal_circuit_peak(1e-6, Restart::Same)).is_ok()
+    );
 }
