@@ -1,7 +1,8 @@
 //! The one matrix type the integrators see: assembled by stamping, factored, solved many times.
 //!
 //! Storage is sparse by rows (sorted column indices), so assembly, products and the term magnitudes of
-//! the residual test cost O(nonzeros) at any size. Zeroing keeps the pattern, so once a Jacobian has been
+//! the residual test cost O(nonzeros) at any size; the products of every step run on a packed copy
+//! (`Packed`). Zeroing keeps the pattern, so once a Jacobian has been
 //! stamped its pattern is fixed and re-stamping allocates nothing.
 //!
 //! Two factorizations sit behind `factor`, chosen by size:
@@ -87,7 +88,7 @@ pub struct Packed {
 }
 
 impl Packed {
-    /// Adds `self * x` to `y` (the same sums in the same order as `Matrix::mul_vec_add`).
+    /// Adds `self * x` to `y`.
     pub fn mul_vec_add(&self, x: &[f64], y: &mut [f64]) {
         for (w, yr) in self.row_ptr.windows(2).zip(y.iter_mut()) {
             let mut s = 0.0;
@@ -98,7 +99,7 @@ impl Packed {
         }
     }
 
-    /// Adds |self_rj x_j| * factor over each row to `out` (as `Matrix::abs_terms_add`).
+    /// Adds |self_rj x_j| * factor over each row to `out` (the magnitudes of the terms of `self * x`).
     pub fn abs_terms_add(&self, x: &[f64], factor: f64, out: &mut [f64]) {
         for (w, o) in self.row_ptr.windows(2).zip(out.iter_mut()) {
             let mut s = 0.0;
@@ -237,32 +238,10 @@ impl Matrix {
         }
     }
 
-    /// `y = self * x`.
+    /// `y = self * x` (through a packed copy; the per-step products keep theirs, see `Packed`).
     pub fn mul_vec(&self, x: &[f64], y: &mut [f64]) {
         y.fill(0.0);
-        self.mul_vec_add(x, y);
-    }
-
-    /// Adds `self * x` to `y`.
-    pub fn mul_vec_add(&self, x: &[f64], y: &mut [f64]) {
-        for (row, yr) in self.rows.iter().zip(y.iter_mut()) {
-            let mut s = 0.0;
-            for (&c, &a) in row.cols.iter().zip(&row.vals) {
-                s += a * x[c];
-            }
-            *yr += s;
-        }
-    }
-
-    /// Adds |self_rj x_j| * factor over each row to `out` (the magnitudes of the terms of `self * x`).
-    pub fn abs_terms_add(&self, x: &[f64], factor: f64, out: &mut [f64]) {
-        for (row, o) in self.rows.iter().zip(out.iter_mut()) {
-            let mut s = 0.0;
-            for (&c, &a) in row.cols.iter().zip(&row.vals) {
-                s += (a * x[c]).abs();
-            }
-            *o += factor.abs() * s;
-        }
+        self.packed().mul_vec_add(x, y);
     }
 
     /// The entries as they stand, packed for fast products.

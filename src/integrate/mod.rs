@@ -148,11 +148,9 @@ impl Solver<'_> {
     /// which the floor bench measures at about `STEP_WORK_PER_ENTRY` operations per stored matrix
     /// entry and `STEP_WORK_FIXED` per step. The dense LU gives no counts: `floor`.
     fn hold_growth(&self, floor: f64, ceiling: f64, solves: f64, share: f64) -> f64 {
-        let Some((factor, solve)) = self.newton.last_factorization().and_then(|lu| lu.flops())
-        else {
+        let Some((factor, step)) = self.work_counts(solves) else {
             return floor;
         };
-        let step = solves * solve + STEP_WORK_PER_ENTRY * self.step_entries + STEP_WORK_FIXED;
         best_hold(
             share.clamp(0.0, 1.0) * factor / step,
             floor,
@@ -162,12 +160,16 @@ impl Solver<'_> {
 
     /// Whether a factorization costs more than a step, by the same counts (false for the dense LU).
     fn factoring_costs_more_than_a_step(&self, solves: f64) -> bool {
-        self.newton
-            .last_factorization()
-            .and_then(|lu| lu.flops())
-            .is_some_and(|(factor, solve)| {
-                factor > solves * solve + STEP_WORK_PER_ENTRY * self.step_entries + STEP_WORK_FIXED
-            })
+        self.work_counts(solves)
+            .is_some_and(|(factor, step)| factor > step)
+    }
+
+    /// The work F of a refactorization and S of a step with `solves` solves, in LU operations, from
+    /// the last factorization's counts (None for the dense LU, which gives none).
+    fn work_counts(&self, solves: f64) -> Option<(f64, f64)> {
+        let (factor, solve) = self.newton.last_factorization()?.flops()?;
+        let step = solves * solve + STEP_WORK_PER_ENTRY * self.step_entries + STEP_WORK_FIXED;
+        Some((factor, step))
     }
 }
 
@@ -720,8 +722,8 @@ fn cut_or_report(
 /// `growth_limit` times longer (the setting, or less where the method needs it), and `h` itself when the
 /// growth would be less than `hold` (a linear circuit then reuses its factored Jacobian). An accepted
 /// step whose estimate asks for a slightly shorter next step (`factor` in [safety, 1)) is also kept
-/// when `keep_shrinks`, which the driver sets when a factorization costs more than a step: the shrink would cost a factorization for certain, keeping it at worst one
-/// rejected step.
+/// when `keep_shrinks`, which the driver sets when a factorization costs more than a step: the shrink
+/// would cost a factorization for certain, keeping it at worst one rejected step.
 fn held(h: f64, factor: f64, hold: f64, growth_limit: f64, keep_shrinks: bool) -> f64 {
     if factor < hold && (factor >= 1.0 || keep_shrinks) {
         h
