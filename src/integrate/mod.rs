@@ -277,10 +277,13 @@ impl ErrorNorm<'_> {
     }
 
     fn observe(&mut self, x: &[f64]) {
-        for (p, v) in self.peak.iter_mut().zip(x) {
-            let a = v.abs();
-            if a > *p {
-                *p = a;
+        // Only the `signal_peak` scale reads each unknown's own peak.
+        if self.settings.tolerances.scale == Scale::SignalPeak {
+            for (p, v) in self.peak.iter_mut().zip(x) {
+                let a = v.abs();
+                if a > *p {
+                    *p = a;
+                }
             }
         }
         let (v_peak, i_peak) = self.kind_peaks(x);
@@ -288,40 +291,74 @@ impl ErrorNorm<'_> {
         self.peak_i = self.peak_i.max(i_peak);
     }
 
-    /// max_i |err_i| / (lte_factor (rtol scale_i + atol_i)) over the unknowns that control the step.
-    /// "So far" includes the trial point: its own values for `signal_peak` and `value`, and for
-    /// `circuit_peak` the largest of each kind in it, so that a circuit starting from rest measures its
-    /// first step against the source that drives it and not against each node's own tiny value.
-    fn ratio(&self, err: impl Fn(usize) -> f64, old: &[f64], new: &[f64]) -> f64 {
+    /// max_i |err_i| / (lte_factor (rtol scale_i + atol_i)) over the unknowns that control the step
+    /// (infinite when one of them is NaN). "So far" includes the trial point: its own values for
+    /// `signal_peak` and `value`, and for `circuit_peak` the largest of each kind in it, so that a
+    /// circuit starting from rest measures its first step against the source that drives it and not
+    /// against each node's own tiny value.
+    fn ratio(&self, err: &[f64], old: &[f64], new: &[f64]) -> f64 {
         let t = &self.settings.tolerances;
-        let (peak_v, peak_i) = match t.scale {
-            Scale::CircuitPeak => {
-                let (v, i) = self.kind_peaks(new);
-                (self.peak_v.max(v), self.peak_i.max(i))
-            }
-            _ => (self.peak_v, self.peak_i),
+        let atol = |class: &Option<UnknownKind>| match class {
+            Some(UnknownKind::Voltage) => t.atol_v,
+            Some(UnknownKind::Current) => t.atol_i,
+            None => 0.0,
         };
+        let mut nan = false;
         let mut worst: f64 = 0.0;
-        for (i, class) in self.class.iter().enumerate() {
-            let (atol, kind_peak) = match class {
-                Some(UnknownKind::Voltage) => (t.atol_v, peak_v),
-                Some(UnknownKind::Current) => (t.atol_i, peak_i),
-                None => continue,
-            };
-            let here = old[i].abs().max(new[i].abs());
-            let scale = match t.scale {
-                Scale::Value => here,
-                Scale::SignalPeak => self.peak[i].max(here),
-                Scale::CircuitPeak => kind_peak.max(here),
-            };
-            let r = err(i).abs() / (t.lte_factor * (t.rtol * scale + atol));
-            if r.is_nan() {
-                worst = f64::INFINITY;
-            } else if r > worst {
-                worst = r;
+        match t.scale {
+            Scale::CircuitPeak => {
+                // The scale of every unknown is its kind's peak, which bounds |old_i| (an accepted
+                // point, observed) and |new_i|: one denominator per kind, and one division each.
+                let (mut err_v, mut err_i) = (0.0f64, 0.0f64);
+                let (mut new_v, mut new_i) = (0.0f64, 0.0f64);
+                for ((class, x), e) in self.class.iter().zip(new).zip(err) {
+                    let (e, a) = (e.abs(), x.abs());
+                    match class {
+                        Some(UnknownKind::Voltage) => {
+                            nan |= e.is_nan();
+                            err_v = if e > err_v { e } else { err_v };
+                            new_v = if a > new_v { a } else { new_v };
+                        }
+                        Some(UnknownKind::Current) => {
+                            nan |= e.is_nan();
+                            err_i = if e > err_i { e } else { err_i };
+                            new_i = if a > new_i { a } else { new_i };
+                        }
+                        None => {}
+                    }
+                }
+                for (e, peak, atol) in [
+                    (err_v, self.peak_v.max(new_v), t.atol_v),
+                    (err_i, self.peak_i.max(new_i), t.atol_i),
+                ] {
+                    let r = e / (t.lte_factor * (t.rtol * peak + atol));
+                    nan |= r.is_nan();
+                    worst = worst.max(r);
+                }
+            }
+            Scale::SignalPeak | Scale::Value => {
+                let own_peak = t.scale == Scale::SignalPeak;
+                for (i, class) in self.class.iter().enumerate() {
+                    if class.is_none() {
+                        continue;
+                    }
+                    let here = old[i].abs().max(new[i].abs());
+                    let scale = if own_peak {
+                        self.peak[i].max(here)
+                    } else {
+                        here
+                    };
+                    let r = err[i].abs() / (t.lte_factor * (t.rtol * scale + atol(class)));
+                    nan |= r.is_nan();
+                    worst = if r > worst { r } else { worst };
+                }
             }
         }
-        worst
+        if nan {
+            f64::INFINITY
+        } else {
+            worst
+        }
     }
 }
 
@@ -341,6 +378,27 @@ fn derivative_weights(pts: &[(f64, &[f64])]) -> Vec<f64> {
             factorial / denom
         })
         .collect()
+}
+
+/// `coefficient` times the derivative that the divided difference of `pts` estimates, per unknown,
+/// into `out` (see `derivative_weights`).
+fn derivative_estimate(pts: &[(f64, &[f64])], coefficient: f64, out: &mut Vec<f64>) {
+    let w = derivative_weights(pts);
+    out.clear();
+    match pts {
+        // The second-order methods' four points, spelled out for the hot path.
+        [(_, a), (_, b), (_, d), (_, e)] => {
+            out.extend(
+                a.iter().zip(*b).zip(*d).zip(*e).map(|(((a, b), d), e)| {
+                    (w[0] * a + w[1] * b + w[2] * d + w[3] * e) * coefficient
+                }),
+            )
+        }
+        _ => out.extend(
+            (0..pts.first().map_or(0, |p| p.1.len()))
+                .map(|i| w.iter().zip(pts).map(|(w, (_, x))| w * x[i]).sum::<f64>() * coefficient),
+        ),
+    }
 }
 
 struct Recorder<'a> {
@@ -467,6 +525,8 @@ pub fn simulate_system(
     let mut singular_cuts = 0u32;
     let mut window: VecDeque<(f64, Vec<f64>)> = VecDeque::from([(0.0, x0)]);
     let mut window_formula: Option<MethodName> = None;
+    // The error estimate of each trial, kept between steps.
+    let mut err_buf: Vec<f64> = Vec::with_capacity(n);
 
     while solver.cur.t < stop {
         if let Some(limit) = sc.time_budget {
@@ -573,7 +633,7 @@ pub fn simulate_system(
             (vec![trial.point], sc.fixed_step.unwrap_or(hh))
         } else {
             let ratio = match &trial.estimate {
-                Estimate::Embedded(e) => Some(norm.ratio(|i| e[i], &solver.cur.x, &trial.point.x)),
+                Estimate::Embedded(e) => Some(norm.ratio(e, &solver.cur.x, &trial.point.x)),
                 Estimate::FromHistory { coefficient }
                     if window.len() >= points_needed(trial.order) =>
                 {
@@ -584,21 +644,8 @@ pub fn simulate_system(
                         .map(|(t, x)| (*t, x.as_slice()))
                         .collect();
                     pts.push((t + hh, trial.point.x.as_slice()));
-                    let w = derivative_weights(&pts);
-                    let c = *coefficient;
-                    Some(match pts.as_slice() {
-                        // The second-order methods' four points, spelled out for the hot path.
-                        [(_, a), (_, b), (_, d), (_, e)] => norm.ratio(
-                            |i| (w[0] * a[i] + w[1] * b[i] + w[2] * d[i] + w[3] * e[i]) * c,
-                            &solver.cur.x,
-                            &trial.point.x,
-                        ),
-                        _ => norm.ratio(
-                            |i| w.iter().zip(&pts).map(|(w, (_, x))| w * x[i]).sum::<f64>() * c,
-                            &solver.cur.x,
-                            &trial.point.x,
-                        ),
-                    })
+                    derivative_estimate(&pts, *coefficient, &mut err_buf);
+                    Some(norm.ratio(&err_buf, &solver.cur.x, &trial.point.x))
                 }
                 Estimate::FromHistory { .. } => None,
             };
@@ -779,7 +826,12 @@ fn double_check(
     let p = full.order as f64;
     let denom = 2.0 * (2f64.powf(p) - 1.0);
     let (fine, coarse) = (&half2.point.x, &full.point.x);
-    let ratio = norm.ratio(|i| (fine[i] - coarse[i]) / denom, &solver.cur.x, fine);
+    let err: Vec<f64> = fine
+        .iter()
+        .zip(coarse)
+        .map(|(f, c)| (f - c) / denom)
+        .collect();
+    let ratio = norm.ratio(&err, &solver.cur.x, fine);
     let factor = step_factor(ratio, p, safety);
     Ok(if ratio <= 1.0 {
         Doubled::Accept {
