@@ -14,6 +14,7 @@
 //!   refactors with it (no graph search, no pivot search), pivoting anew when a reused pivot is small.
 
 use super::sparse_lu::{self, Csc, Factors, Failure, Structure};
+use std::sync::atomic::{AtomicU64, Ordering};
 use std::sync::{Arc, Mutex, OnceLock};
 
 /// Matrices with more unknowns than this are factored by the sparse LU. Measured with `ringtrue
@@ -59,6 +60,19 @@ pub struct Matrix {
     /// The pivot sequence this matrix's last sparse factorization used (never shared between clones, so
     /// that each matrix's factors depend only on its own history).
     learned: Learned,
+    /// The last pair of packed matrices `factor_combination` laid out in this pattern's compressed
+    /// columns; reset with the plan.
+    combination: Option<Arc<Combination>>,
+}
+
+/// Two packed matrices C and G scattered into a pattern's compressed columns, so that alpha C + G is one
+/// pass over the pattern's entries.
+#[derive(Debug)]
+struct Combination {
+    c_id: u64,
+    g_id: u64,
+    c: Vec<f64>,
+    g: Vec<f64>,
 }
 
 /// The pivot sequence of a matrix's last sparse factorization; a clone starts without one.
@@ -80,12 +94,24 @@ impl PartialEq for Matrix {
 /// A finished matrix's entries packed row after row in three flat arrays, for the products that run
 /// every step: a large circuit's rows, each in its own allocation, scatter over memory, and the
 /// products then wait on cache misses.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone)]
 pub struct Packed {
     row_ptr: Vec<usize>,
     cols: Vec<usize>,
     vals: Vec<f64>,
+    /// Unique to each packing (a clone keeps it, as it keeps the entries), so that a matrix can tell a
+    /// packed matrix it has already laid out (`Matrix::factor_combination`).
+    id: u64,
 }
+
+impl PartialEq for Packed {
+    fn eq(&self, other: &Self) -> bool {
+        self.row_ptr == other.row_ptr && self.cols == other.cols && self.vals == other.vals
+    }
+}
+
+/// The source of `Packed::id`.
+static NEXT_PACKED_ID: AtomicU64 = AtomicU64::new(0);
 
 impl Packed {
     /// Adds `self * x` to `y`.
@@ -97,6 +123,16 @@ impl Packed {
             }
             *yr += s;
         }
+    }
+
+    /// The stored entries as (row, column, value), row after row.
+    fn entries(&self) -> impl Iterator<Item = (usize, usize, f64)> + '_ {
+        self.row_ptr.windows(2).enumerate().flat_map(move |(r, w)| {
+            self.cols[w[0]..w[1]]
+                .iter()
+                .zip(&self.vals[w[0]..w[1]])
+                .map(move |(&c, &v)| (r, c, v))
+        })
     }
 
     /// Adds |self_rj x_j| * factor over each row to `out` (the magnitudes of the terms of `self * x`).
@@ -137,6 +173,7 @@ impl Matrix {
             backend: Backend::Auto,
             plan: OnceLock::new(),
             learned: Learned::default(),
+            combination: None,
         }
     }
 
@@ -194,6 +231,7 @@ impl Matrix {
                 r.vals.insert(j, v);
                 self.plan = OnceLock::new();
                 self.learned = Learned::default();
+                self.combination = None;
             }
         }
     }
@@ -259,6 +297,7 @@ impl Matrix {
             row_ptr,
             cols,
             vals,
+            id: NEXT_PACKED_ID.fetch_add(1, Ordering::Relaxed),
         }
     }
 
@@ -385,11 +424,21 @@ impl Matrix {
                 values[plan.to_csc[start + j]] = v;
             }
         }
+        self.factor_sparse_values(&plan, &values, spare)
+    }
+
+    /// The sparse LU of this pattern with `values` in its compressed columns.
+    fn factor_sparse_values(
+        &self,
+        plan: &SparsePlan,
+        values: &[f64],
+        spare: Option<Factors>,
+    ) -> Result<Factors, Singular> {
         let a = Csc {
             n: self.n,
             col_ptr: &plan.col_ptr,
             row_idx: &plan.row_idx,
-            values: &values,
+            values,
         };
         let mut learned = self.learned.0.lock().unwrap_or_else(|e| e.into_inner());
         if let Some(structure) = learned.as_ref() {
@@ -405,6 +454,67 @@ impl Matrix {
             Err(Failure::Singular { column }) => Err(Singular { column }),
             Err(Failure::PivotTooSmall) => Err(Singular { column: 0 }),
         }
+    }
+
+    /// Factors `alpha c + g` without assembling it into this matrix, whose pattern must hold theirs (as a
+    /// constant step matrix's does): the sparse LU reads the sum straight into its compressed columns, C
+    /// and G having been laid out there once (the same sums, (0 + alpha c) + g, as `set_combination`).
+    /// The dense LU, and a pattern that lacks an entry of theirs, assemble this matrix first. `spare` is
+    /// as for `factor_reusing`.
+    pub fn factor_combination(
+        &mut self,
+        alpha: f64,
+        c: &Packed,
+        g: &Packed,
+        spare: Option<Lu>,
+    ) -> Result<Lu, Singular> {
+        if self.uses_sparse() {
+            let plan = Arc::clone(self.plan());
+            let known = self
+                .combination
+                .as_ref()
+                .is_some_and(|m| m.c_id == c.id && m.g_id == g.id);
+            if !known {
+                self.combination = self.lay_out(&plan, c, g).map(Arc::new);
+            }
+            if let Some(m) = &self.combination {
+                let values: Vec<f64> = m.c.iter().zip(&m.g).map(|(c, g)| alpha * c + g).collect();
+                let spare = match spare {
+                    Some(Lu::Sparse(f)) => Some(*f),
+                    _ => None,
+                };
+                return self
+                    .factor_sparse_values(&plan, &values, spare)
+                    .map(|f| Lu::Sparse(Box::new(f)));
+            }
+        }
+        self.zero();
+        for (r, col, v) in c.entries() {
+            self.add(r, col, alpha * v);
+        }
+        for (r, col, v) in g.entries() {
+            self.add(r, col, v);
+        }
+        self.factor_reusing(spare)
+    }
+
+    /// C and G scattered into `plan`'s compressed columns; None when this pattern lacks one of their
+    /// entries (a row of a packed matrix holds each column once).
+    fn lay_out(&self, plan: &SparsePlan, c: &Packed, g: &Packed) -> Option<Combination> {
+        let scatter = |m: &Packed| -> Option<Vec<f64>> {
+            let mut out = vec![0.0; plan.row_idx.len()];
+            for (r, col, v) in m.entries() {
+                let j = self.rows.get(r)?.cols.binary_search(&col).ok()?;
+                out[plan.to_csc[plan.row_start[r] + j]] = v;
+            }
+            Some(out)
+        };
+        Some(Combination {
+            c_id: c.id,
+            g_id: g.id,
+            c: scatter(c)?,
+            g: scatter(g)?,
+        })
     }
 }
 

@@ -522,6 +522,12 @@ impl System {
         &self.c
     }
 
+    /// `g` and `c` packed, as the step matrices of a linear circuit combine them
+    /// (`Matrix::factor_combination`).
+    pub fn packed_g_c(&self) -> (&Packed, &Packed) {
+        (&self.g_packed, &self.c_packed)
+    }
+
     /// The source vector b(t), every waveform scaled by `factor` (1 except during source stepping).
     pub fn sources_into(&self, t: f64, factor: f64, b: &mut [f64]) {
         b.fill(0.0);

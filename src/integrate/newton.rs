@@ -1,7 +1,7 @@
 //! Newton's method for the circuit equations, with damping, a convergence test on both the update and
 //! the residual, and reuse of the factorization when the Jacobian cannot have changed.
 
-use crate::equations::matrix::{Lu, Matrix, Singular};
+use crate::equations::matrix::{Lu, Matrix, Packed, Singular};
 use crate::equations::{System, UnknownKind};
 
 /// A set of equations F(x) = 0 that Newton can solve.
@@ -16,6 +16,11 @@ pub trait Equations {
     }
     /// `Some(key)` when the Jacobian is constant for a given key (a linear circuit at a given step).
     fn jacobian_key(&self) -> Option<u64> {
+        None
+    }
+    /// A constant Jacobian of the form alpha C + G, given as (alpha, C, G), which Newton then factors
+    /// without evaluating F (`Matrix::factor_combination`); None to assemble it through `evaluate`.
+    fn combination(&self) -> Option<(f64, &Packed, &Packed)> {
         None
     }
     /// Whether unknown `i` is a voltage or a current (for absolute tolerances).
@@ -225,12 +230,15 @@ impl Newton {
         }
         match self.cache.iter().position(|(ck, _)| *ck == key) {
             Some(i) => self.last_used = i,
-            None => {
-                // The Jacobian of a linear problem is the same at any point: assemble it at k.
-                self.jac.zero();
-                eq.evaluate(x, &mut self.f, &mut self.scale, Some(&mut self.jac));
-                self.factor_jacobian(Some(key))?;
-            }
+            None => match eq.combination() {
+                Some((alpha, c, g)) => self.factor_combination(key, alpha, c, g)?,
+                None => {
+                    // The Jacobian of a linear problem is the same at any point: assemble it at k.
+                    self.jac.zero();
+                    eq.evaluate(x, &mut self.f, &mut self.scale, Some(&mut self.jac));
+                    self.factor_jacobian(Some(key))?;
+                }
+            },
         }
         self.last_factorization().expect("factored above").solve(x);
         self.work.newton_iterations += 1;
@@ -253,24 +261,44 @@ impl Newton {
     /// Factors the assembled Jacobian and keeps it: in the cache under `key` (a constant Jacobian),
     /// else as the last factorization.
     fn factor_jacobian(&mut self, key: Option<u64>) -> Result<(), NewtonFailure> {
+        let spare = self.spare(key);
+        let lu = self.jac.factor_reusing(spare);
+        self.keep(key, lu)
+    }
+
+    /// Factors the constant Jacobian alpha C + G and keeps it in the cache under `key`.
+    fn factor_combination(
+        &mut self,
+        key: u64,
+        alpha: f64,
+        c: &Packed,
+        g: &Packed,
+    ) -> Result<(), NewtonFailure> {
+        let spare = self.spare(Some(key));
+        let lu = self.jac.factor_combination(alpha, c, g, spare);
+        self.keep(Some(key), lu)
+    }
+
+    /// The factorization a new one under `key` replaces, which lends it its storage.
+    fn spare(&mut self, key: Option<u64>) -> Option<Lu> {
         let slots = if self.jac.uses_sparse() {
             SPARSE_CACHE_SLOTS
         } else {
             CACHE_SLOTS
         };
-        // The factorization this one replaces lends it its storage.
-        let spare = match key {
+        match key {
             Some(_) if self.cache.len() >= slots => {
                 self.last_used = usize::MAX;
                 Some(self.cache.remove(0).1)
             }
             Some(_) => None,
             None => self.last_lu.take(),
-        };
-        let lu = self
-            .jac
-            .factor_reusing(spare)
-            .map_err(|Singular { column }| NewtonFailure::Singular { unknown: column })?;
+        }
+    }
+
+    /// Counts and keeps a new factorization: in the cache under `key`, else as the last one.
+    fn keep(&mut self, key: Option<u64>, lu: Result<Lu, Singular>) -> Result<(), NewtonFailure> {
+        let lu = lu.map_err(|Singular { column }| NewtonFailure::Singular { unknown: column })?;
         self.work.factorizations += 1;
         match key {
             Some(kk) => {
@@ -393,6 +421,14 @@ impl Equations for Stage<'_> {
 
     fn jacobian_key(&self) -> Option<u64> {
         (self.sys.linear && self.shunt == 0.0).then(|| self.alpha.to_bits())
+    }
+
+    /// A linear circuit's step matrix is alpha C + G: no diode or switch stamps, no shunt.
+    fn combination(&self) -> Option<(f64, &Packed, &Packed)> {
+        self.jacobian_key().map(|_| {
+            let (g, c) = self.sys.packed_g_c();
+            (self.alpha, c, g)
+        })
     }
 
     fn unknown_kind(&self, i: usize) -> UnknownKind {

@@ -126,3 +126,64 @@ fn sparse_and_dense_agree_above_the_automatic_limit() {
     // 150 unknowns: the automatic choice is sparse here, and the dense path still runs quickly.
     compare("ladder-148", &rc_ladder(148));
 }
+
+/// `factor_combination` factors alpha C + G without assembling it. On the step-matrix pattern its
+/// solves must be bit-equal to those of the same matrix assembled with the same history of learned
+/// pivots (the same sums, (0 + alpha c) + g, then the same LU), for both LUs and for later alphas through
+/// the laid-out copy. A matrix whose pattern lacks the entries assembles them instead; its pattern, and
+/// so its column order, differs, so it agrees to 1e-12 of the solution's largest entry, as the LUs do.
+#[test]
+fn factoring_a_combination_equals_factoring_the_assembled_matrix() {
+    let texts = [
+        ("rc-ladder-20", shipped("rc-ladder-20")),
+        ("gate-drive-rlc", shipped("gate-drive-rlc")),
+        (
+            "coupled-coil-resonators",
+            shipped("coupled-coil-resonators"),
+        ),
+        ("ladder-148", rc_ladder(148)),
+    ];
+    for (label, text) in texts {
+        let c = circuit(&text);
+        let sys = System::new(&c);
+        assert!(sys.linear, "{label} is linear");
+        let n = sys.size();
+        let (g, cp) = sys.packed_g_c();
+        let rhs: Vec<f64> = (0..n).map(|i| ((i * 7919) % 13) as f64 - 6.0).collect();
+        let solve = |lu: ringtrue::equations::matrix::Lu| {
+            let mut x = rhs.clone();
+            lu.solve(&mut x);
+            x
+        };
+        for backend in [Backend::Dense, Backend::Sparse] {
+            let mut assembled = sys.jacobian.clone();
+            let mut direct = sys.jacobian.clone();
+            let mut bare = ringtrue::equations::matrix::Matrix::new(n);
+            for m in [&mut assembled, &mut direct, &mut bare] {
+                m.set_backend(backend);
+            }
+            for frac in [1e-6, 1e-2, 1e-1, 1e-6] {
+                let alpha = 1.0 / (frac * c.run.stop);
+                assembled.set_combination(alpha, sys.c(), sys.g());
+                let want = solve(assembled.factor().expect("the step matrix factors"));
+                let at = format!("{label} {backend:?} h = {frac:e} * stop");
+                let got = solve(
+                    direct
+                        .factor_combination(alpha, cp, g, None)
+                        .expect("factors"),
+                );
+                assert!(got == want, "{at}: solves differ");
+                let got = solve(
+                    bare.factor_combination(alpha, cp, g, None)
+                        .expect("factors"),
+                );
+                let peak = want.iter().fold(0.0f64, |p, v| p.max(v.abs()));
+                let worst = want
+                    .iter()
+                    .zip(&got)
+                    .fold(0.0f64, |w, (a, b)| w.max((a - b).abs() / peak));
+                assert!(worst <= 1e-12, "{at}, bare pattern: {worst:e}");
+            }
+        }
+    }
+}
