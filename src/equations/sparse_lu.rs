@@ -329,27 +329,60 @@ impl Factors {
     /// Solves `A x = b`, overwriting `b` with `x`.
     pub fn solve(&self, b: &mut [f64]) {
         let s = &*self.structure;
-        let mut y = vec![0.0; s.n];
+        let n = s.n;
+        if n == 0 {
+            return;
+        }
+        let mut y = vec![0.0; n];
         for (&p, &bi) in s.pinv.iter().zip(b.iter()) {
             y[p] = bi;
         }
-        for j in 0..s.n {
-            let yj = y[j];
+        // A chain of eliminations (each column updating the next, as along a ladder or a line) makes
+        // both substitutions one long dependency chain. The update of the next unknown is the last one
+        // it receives, so it is applied in a register and carried to the next column instead of going
+        // through memory: the same operations in the same order, without a store and reload on the
+        // chain.
+        let mut yj = y[0];
+        for j in 0..n {
+            y[j] = yj;
+            let mut next = None;
             if yj != 0.0 {
                 let r = s.l_ptr[j]..s.l_ptr[j + 1];
                 for (&i, &l) in s.l_idx[r.clone()].iter().zip(&self.l_val[r]) {
-                    y[i] -= l * yj;
+                    if i == j + 1 {
+                        next = Some(l);
+                    } else {
+                        y[i] -= l * yj;
+                    }
                 }
             }
+            if j + 1 < n {
+                yj = match next {
+                    Some(l) => y[j + 1] - l * yj,
+                    None => y[j + 1],
+                };
+            }
         }
-        for k in (0..s.n).rev() {
-            let yk = y[k] * self.u_inv[k];
+        let mut carried = y[n - 1];
+        for k in (0..n).rev() {
+            let yk = carried * self.u_inv[k];
             y[k] = yk;
+            let mut prev = None;
             if yk != 0.0 {
                 let r = s.u_ptr[k]..s.u_ptr[k + 1];
                 for (&i, &u) in s.u_idx[r.clone()].iter().zip(&self.u_val[r]) {
-                    y[i] -= u * yk;
+                    if i + 1 == k {
+                        prev = Some(u);
+                    } else {
+                        y[i] -= u * yk;
+                    }
                 }
+            }
+            if k > 0 {
+                carried = match prev {
+                    Some(u) => y[k - 1] - u * yk,
+                    None => y[k - 1],
+                };
             }
         }
         for (&c, &yk) in s.q.iter().zip(&y) {

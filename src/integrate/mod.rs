@@ -388,11 +388,11 @@ fn derivative_estimate(pts: &[(f64, &[f64])], coefficient: f64, out: &mut Vec<f6
     match pts {
         // The second-order methods' four points, spelled out for the hot path.
         [(_, a), (_, b), (_, d), (_, e)] => {
-            out.extend(
-                a.iter().zip(*b).zip(*d).zip(*e).map(|(((a, b), d), e)| {
-                    (w[0] * a + w[1] * b + w[2] * d + w[3] * e) * coefficient
-                }),
-            )
+            let (w0, w1, w2, w3) = (w[0], w[1], w[2], w[3]);
+            out.resize(a.len(), 0.0);
+            for ((((o, a), b), d), e) in out.iter_mut().zip(*a).zip(*b).zip(*d).zip(*e) {
+                *o = (w0 * a + w1 * b + w2 * d + w3 * e) * coefficient;
+            }
         }
         _ => out.extend(
             (0..pts.first().map_or(0, |p| p.1.len()))
