@@ -102,6 +102,9 @@ pub struct Packed {
     /// Unique to each packing (a clone keeps it, as it keeps the entries), so that a matrix can tell a
     /// packed matrix it has already laid out (`Matrix::factor_combination`).
     id: u64,
+    /// The diagonal, when no entry lies off it (a circuit's C when every capacitor is grounded and no
+    /// inductors are coupled): its products are then one vectorised pass.
+    diagonal: Option<Vec<f64>>,
 }
 
 impl PartialEq for Packed {
@@ -114,8 +117,15 @@ impl PartialEq for Packed {
 static NEXT_PACKED_ID: AtomicU64 = AtomicU64::new(0);
 
 impl Packed {
-    /// Adds `self * x` to `y`.
+    /// Adds `self * x` to `y`. (A diagonal matrix multiplies its empty rows' zeros too, which differs
+    /// only where x is not finite; `0.0 +` keeps the row sums' signed zeros.)
     pub fn mul_vec_add(&self, x: &[f64], y: &mut [f64]) {
+        if let Some(d) = &self.diagonal {
+            for ((yr, d), x) in y.iter_mut().zip(d).zip(x) {
+                *yr += 0.0 + d * x;
+            }
+            return;
+        }
         for (w, yr) in self.row_ptr.windows(2).zip(y.iter_mut()) {
             let mut s = 0.0;
             for (&c, &a) in self.cols[w[0]..w[1]].iter().zip(&self.vals[w[0]..w[1]]) {
@@ -293,11 +303,18 @@ impl Matrix {
             vals.extend_from_slice(&row.vals);
             row_ptr.push(cols.len());
         }
+        let on_diagonal = self
+            .rows
+            .iter()
+            .enumerate()
+            .all(|(r, row)| row.cols.iter().all(|&c| c == r));
+        let diagonal = on_diagonal.then(|| (0..self.n).map(|r| self.get(r, r)).collect());
         Packed {
             row_ptr,
             cols,
             vals,
             id: NEXT_PACKED_ID.fetch_add(1, Ordering::Relaxed),
+            diagonal,
         }
     }
 
