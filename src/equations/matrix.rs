@@ -672,6 +672,25 @@ mod tests {
         }
     }
 
+    /// The diagonal fast path of the packed product gives the row sums of the general one, empty rows
+    /// included, and a single off-diagonal entry takes the general path.
+    #[test]
+    fn packed_products_of_diagonal_and_general_matrices() {
+        let mut m = Matrix::new(3);
+        m.add(0, 0, 2.0);
+        m.add(2, 2, -3.0);
+        let x = [1.5, 7.0, 0.25];
+        let mut y = [1.0; 3];
+        m.packed().mul_vec_add(&x, &mut y);
+        assert!(m.packed().diagonal.is_some());
+        assert_eq!(y, [1.0 + 3.0, 1.0, 1.0 - 0.75]);
+        m.add(1, 0, 4.0);
+        assert!(m.packed().diagonal.is_none());
+        let mut y = [0.0; 3];
+        m.mul_vec(&x, &mut y);
+        assert_eq!(y, [3.0, 6.0, -0.75]);
+    }
+
     #[test]
     fn reports_the_singular_column() {
         let mut m = Matrix::new(2);
