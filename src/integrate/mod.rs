@@ -243,34 +243,64 @@ impl StageSolver for Solver<'_> {
 /// Local-error test against the tolerances.
 struct ErrorNorm<'a> {
     settings: &'a Settings,
-    /// Per unknown: the kind when it controls the step (see `classes`).
-    class: Vec<Option<UnknownKind>>,
-    /// Largest |x_i| over the accepted points so far.
+    /// The unknowns that control the step, as maximal runs of one kind (see `runs`): MNA numbers the
+    /// node voltages first and the branch currents after them, so a circuit has a few runs, and each
+    /// pass over them is a plain loop over slices.
+    runs: Vec<(UnknownKind, std::ops::Range<usize>)>,
+    /// Largest |x_i| over the accepted points so far (kept for the `signal_peak` scale only).
     peak: Vec<f64>,
     peak_v: f64,
     peak_i: f64,
 }
 
+/// The largest |a_i| (a NaN is skipped, as `f64::max` skips it) and whether any a_i is NaN, in four
+/// lanes: a maximum does not depend on the order in which it is taken, and the lanes vectorise.
+fn lane_peaks(a: &[f64]) -> (f64, bool) {
+    let mut m = [0.0f64; 4];
+    let mut nan = [false; 4];
+    let chunks = a.chunks_exact(4);
+    let rest = chunks.remainder();
+    for x in chunks {
+        for k in 0..4 {
+            let v = x[k].abs();
+            m[k] = if v > m[k] { v } else { m[k] };
+            nan[k] |= v.is_nan();
+        }
+    }
+    for x in rest {
+        let v = x.abs();
+        m[0] = if v > m[0] { v } else { m[0] };
+        nan[0] |= v.is_nan();
+    }
+    let top = m.iter().fold(0.0f64, |t, &v| if v > t { v } else { t });
+    (top, nan.iter().any(|&n| n))
+}
+
 impl ErrorNorm<'_> {
-    /// Which unknowns control the step, and of which kind: `None` for those that do not.
-    fn classes(sys: &System) -> Vec<Option<UnknownKind>> {
-        sys.unknowns
-            .iter()
-            .map(|u| u.controls_step.then_some(u.kind))
-            .collect()
+    /// Which unknowns control the step, and of which kind, as maximal runs.
+    fn runs(sys: &System) -> Vec<(UnknownKind, std::ops::Range<usize>)> {
+        let mut runs: Vec<(UnknownKind, std::ops::Range<usize>)> = Vec::new();
+        for (i, u) in sys.unknowns.iter().enumerate() {
+            if !u.controls_step {
+                continue;
+            }
+            match runs.last_mut() {
+                Some((kind, r)) if *kind == u.kind && r.end == i => r.end = i + 1,
+                _ => runs.push((u.kind, i..i + 1)),
+            }
+        }
+        runs
     }
 
     /// The largest |x_i| of each kind over the unknowns that control the step (a NaN is skipped, as
-    /// `f64::max` skips it). Plain comparisons keep this pass, run every step, free of `max`'s NaN
-    /// handling.
+    /// `f64::max` skips it).
     fn kind_peaks(&self, x: &[f64]) -> (f64, f64) {
         let (mut v_peak, mut i_peak) = (0.0f64, 0.0f64);
-        for (class, v) in self.class.iter().zip(x) {
-            let a = v.abs();
-            match class {
-                Some(UnknownKind::Voltage) if a > v_peak => v_peak = a,
-                Some(UnknownKind::Current) if a > i_peak => i_peak = a,
-                _ => {}
+        for (kind, r) in &self.runs {
+            let (m, _) = lane_peaks(&x[r.clone()]);
+            match kind {
+                UnknownKind::Voltage => v_peak = v_peak.max(m),
+                UnknownKind::Current => i_peak = i_peak.max(m),
             }
         }
         (v_peak, i_peak)
@@ -298,10 +328,9 @@ impl ErrorNorm<'_> {
     /// against each node's own tiny value.
     fn ratio(&self, err: &[f64], old: &[f64], new: &[f64]) -> f64 {
         let t = &self.settings.tolerances;
-        let atol = |class: &Option<UnknownKind>| match class {
-            Some(UnknownKind::Voltage) => t.atol_v,
-            Some(UnknownKind::Current) => t.atol_i,
-            None => 0.0,
+        let atol = |kind: &UnknownKind| match kind {
+            UnknownKind::Voltage => t.atol_v,
+            UnknownKind::Current => t.atol_i,
         };
         let mut nan = false;
         let mut worst: f64 = 0.0;
@@ -310,23 +339,15 @@ impl ErrorNorm<'_> {
                 // The scale of every unknown is its kind's peak, which bounds |old_i| (an accepted
                 // point, observed) and |new_i|: one denominator per kind, and one division each.
                 let (mut err_v, mut err_i) = (0.0f64, 0.0f64);
-                let (mut new_v, mut new_i) = (0.0f64, 0.0f64);
-                for ((class, x), e) in self.class.iter().zip(new).zip(err) {
-                    let (e, a) = (e.abs(), x.abs());
-                    match class {
-                        Some(UnknownKind::Voltage) => {
-                            nan |= e.is_nan();
-                            err_v = if e > err_v { e } else { err_v };
-                            new_v = if a > new_v { a } else { new_v };
-                        }
-                        Some(UnknownKind::Current) => {
-                            nan |= e.is_nan();
-                            err_i = if e > err_i { e } else { err_i };
-                            new_i = if a > new_i { a } else { new_i };
-                        }
-                        None => {}
+                for (kind, r) in &self.runs {
+                    let (e, e_nan) = lane_peaks(&err[r.clone()]);
+                    nan |= e_nan;
+                    match kind {
+                        UnknownKind::Voltage => err_v = err_v.max(e),
+                        UnknownKind::Current => err_i = err_i.max(e),
                     }
                 }
+                let (new_v, new_i) = self.kind_peaks(new);
                 for (e, peak, atol) in [
                     (err_v, self.peak_v.max(new_v), t.atol_v),
                     (err_i, self.peak_i.max(new_i), t.atol_i),
@@ -338,19 +359,19 @@ impl ErrorNorm<'_> {
             }
             Scale::SignalPeak | Scale::Value => {
                 let own_peak = t.scale == Scale::SignalPeak;
-                for (i, class) in self.class.iter().enumerate() {
-                    if class.is_none() {
-                        continue;
+                for (kind, run) in &self.runs {
+                    let atol = atol(kind);
+                    for i in run.clone() {
+                        let here = old[i].abs().max(new[i].abs());
+                        let scale = if own_peak {
+                            self.peak[i].max(here)
+                        } else {
+                            here
+                        };
+                        let r = err[i].abs() / (t.lte_factor * (t.rtol * scale + atol));
+                        nan |= r.is_nan();
+                        worst = if r > worst { r } else { worst };
                     }
-                    let here = old[i].abs().max(new[i].abs());
-                    let scale = if own_peak {
-                        self.peak[i].max(here)
-                    } else {
-                        here
-                    };
-                    let r = err[i].abs() / (t.lte_factor * (t.rtol * scale + atol(class)));
-                    nan |= r.is_nan();
-                    worst = if r > worst { r } else { worst };
                 }
             }
         }
@@ -493,7 +514,7 @@ pub fn simulate_system(
     };
     let mut norm = ErrorNorm {
         settings,
-        class: ErrorNorm::classes(sys),
+        runs: ErrorNorm::runs(sys),
         peak: vec![0.0; n],
         peak_v: 0.0,
         peak_i: 0.0,
