@@ -601,6 +601,14 @@ impl Lu {
             Lu::Sparse(s) => s.solve(b),
         }
     }
+
+    /// `solve`, with `scratch` as the sparse LU's working vector (see `Factors::solve_with`).
+    pub fn solve_with(&self, b: &mut [f64], scratch: &mut Vec<f64>) {
+        match self {
+            Lu::Dense(d) => d.solve(b),
+            Lu::Sparse(s) => s.solve_with(b, scratch),
+        }
+    }
 }
 
 #[derive(Debug, Clone)]

@@ -328,12 +328,18 @@ pub fn refactor_reusing(
 impl Factors {
     /// Solves `A x = b`, overwriting `b` with `x`.
     pub fn solve(&self, b: &mut [f64]) {
+        self.solve_with(b, &mut Vec::new());
+    }
+
+    /// `solve`, working in `y` (resized; what it held does not matter, since every entry is written
+    /// before it is read), so that a caller solving every step allocates nothing.
+    pub fn solve_with(&self, b: &mut [f64], y: &mut Vec<f64>) {
         let s = &*self.structure;
         let n = s.n;
         if n == 0 {
             return;
         }
-        let mut y = vec![0.0; n];
+        y.resize(n, 0.0);
         for (&p, &bi) in s.pinv.iter().zip(b.iter()) {
             y[p] = bi;
         }
@@ -385,7 +391,7 @@ impl Factors {
                 };
             }
         }
-        for (&c, &yk) in s.q.iter().zip(&y) {
+        for (&c, &yk) in s.q.iter().zip(y.iter()) {
             b[c] = yk;
         }
     }

@@ -106,6 +106,17 @@ pub trait StageSolver {
     fn solve(&mut self, alpha: f64, r: &[f64], t: f64) -> Result<Solved, NewtonFailure>;
     /// Solves J y = v in place with the Jacobian of the last stage solved.
     fn solve_with_last_jacobian(&self, v: &mut [f64]);
+    /// A vector of the circuit's size to fill (what it holds is unspecified), recycled from earlier
+    /// steps so that a step allocates nothing.
+    fn buffer(&mut self) -> Vec<f64>;
+    /// Gives back a vector no longer needed, for `buffer` to hand out again.
+    fn recycle(&mut self, v: Vec<f64>);
+    /// Gives back the vectors of a stage's solution.
+    fn recycle_point(&mut self, p: Solved) {
+        self.recycle(p.x);
+        self.recycle(p.q);
+        self.recycle(p.qdot);
+    }
 }
 
 /// How a trial step's local error is to be estimated.
@@ -142,8 +153,12 @@ pub trait Method: Sync {
     }
 }
 
-fn combine(a: f64, x: &[f64], b: f64, y: &[f64]) -> Vec<f64> {
-    x.iter().zip(y).map(|(p, q)| a * p + b * q).collect()
+/// `a x + b y`, written into `out` (a buffer of the solver's).
+fn combine(mut out: Vec<f64>, a: f64, x: &[f64], b: f64, y: &[f64]) -> Vec<f64> {
+    for ((o, p), q) in out.iter_mut().zip(x).zip(y) {
+        *o = a * p + b * q;
+    }
+    out
 }
 
 pub struct BackwardEuler;
@@ -156,11 +171,14 @@ impl Method for BackwardEuler {
         MethodName::BackwardEuler
     }
     fn attempt(&self, s: &mut dyn StageSolver, h: f64) -> Result<Trial, NewtonFailure> {
-        let cur = s.current();
-        let t = cur.t + h;
+        let t = s.current().t + h;
         let alpha = 1.0 / h;
-        let r: Vec<f64> = cur.q.iter().map(|q| q / h).collect();
+        let mut r = s.buffer();
+        for (r, q) in r.iter_mut().zip(&s.current().q) {
+            *r = q / h;
+        }
         let point = s.solve(alpha, &r, t)?;
+        s.recycle(r);
         Ok(Trial {
             point,
             estimate: Estimate::FromHistory {
@@ -177,11 +195,13 @@ impl Method for Trapezoidal {
         MethodName::Trapezoidal
     }
     fn attempt(&self, s: &mut dyn StageSolver, h: f64) -> Result<Trial, NewtonFailure> {
+        let buf = s.buffer();
         let cur = s.current();
         let t = cur.t + h;
         let alpha = 2.0 / h;
-        let r = combine(alpha, &cur.q, 1.0, &cur.qdot);
+        let r = combine(buf, alpha, &cur.q, 1.0, &cur.qdot);
         let point = s.solve(alpha, &r, t)?;
+        s.recycle(r);
         Ok(Trial {
             point,
             estimate: Estimate::FromHistory {
@@ -203,8 +223,10 @@ impl Method for Bdf2 {
         Some(2.0)
     }
     fn attempt(&self, s: &mut dyn StageSolver, h: f64) -> Result<Trial, NewtonFailure> {
+        let buf = s.buffer();
         let Some(prev) = s.previous() else {
             // BDF2 needs two points; its first step is BDF1, which is backward Euler.
+            s.recycle(buf);
             return BackwardEuler.attempt(s, h);
         };
         let cur = s.current();
@@ -213,9 +235,16 @@ impl Method for Bdf2 {
         // Variable-step BDF2: q'(t+h) = [(1+2w)/(1+w) q_{n+1} - (1+w) q_n + w^2/(1+w) q_{n-1}] / h
         // (Hairer & Wanner, Solving ODEs II, III.5).
         let alpha = (1.0 + 2.0 * w) / ((1.0 + w) * h);
-        let r = combine((1.0 + w) / h, &cur.q, -(w * w) / ((1.0 + w) * h), &prev.q);
+        let r = combine(
+            buf,
+            (1.0 + w) / h,
+            &cur.q,
+            -(w * w) / ((1.0 + w) * h),
+            &prev.q,
+        );
         let t = cur.t + h;
         let point = s.solve(alpha, &r, t)?;
+        s.recycle(r);
         // Local error = x''' h^2 (h + h1)^2 / (6 (2h + h1)): the interpolation error of the derivative
         // divided by the leading coefficient alpha.
         let coefficient = h * h * (h + h1) * (h + h1) / (6.0 * (2.0 * h + h1));
@@ -237,29 +266,31 @@ impl Method for TrBdf2 {
     }
     fn attempt(&self, s: &mut dyn StageSolver, h: f64) -> Result<Trial, NewtonFailure> {
         let (d, w) = (TRBDF2_D, TRBDF2_W);
-        let cur = s.current().clone();
         // Stage 1: the trapezoidal rule over gamma h.
         let a1 = 2.0 / (GAMMA * h);
-        let r1 = combine(a1, &cur.q, 1.0, &cur.qdot);
-        let mid = s.solve(a1, &r1, cur.t + GAMMA * h)?;
+        let buf = s.buffer();
+        let cur = s.current();
+        let t0 = cur.t;
+        let r1 = combine(buf, a1, &cur.q, 1.0, &cur.qdot);
+        let mid = s.solve(a1, &r1, t0 + GAMMA * h)?;
         // Stage 2: q_{n+1} = q_n + h (w qdot_n + w qdot_gamma + d qdot_{n+1}), the BDF2 stage.
         let a2 = 1.0 / (d * h);
-        let r2: Vec<f64> = cur
-            .q
-            .iter()
-            .zip(&cur.qdot)
-            .zip(&mid.qdot)
-            .map(|((q, f0), f1)| (q + h * w * (f0 + f1)) * a2)
-            .collect();
-        let end = s.solve(a2, &r2, cur.t + h)?;
+        let mut r2 = r1;
+        let cur = s.current();
+        for (((r, q), f0), f1) in r2.iter_mut().zip(&cur.q).zip(&cur.qdot).zip(&mid.qdot) {
+            *r = (q + h * w * (f0 + f1)) * a2;
+        }
+        let end = s.solve(a2, &r2, t0 + h)?;
         // Embedded estimate in charge units, then filtered through the stage Jacobian
         // (alpha2 C + G)^-1 alpha2 to bring it to the unknowns (common practice for stiff problems).
         let [e0, e1, e2] = TRBDF2_EMBEDDED;
-        let mut est: Vec<f64> = (0..cur.q.len())
-            .map(|i| {
-                h * ((w - e0) * cur.qdot[i] + (w - e1) * mid.qdot[i] + (d - e2) * end.qdot[i]) * a2
-            })
-            .collect();
+        let mut est = r2;
+        let cur = s.current();
+        for (i, e) in est.iter_mut().enumerate() {
+            *e =
+                h * ((w - e0) * cur.qdot[i] + (w - e1) * mid.qdot[i] + (d - e2) * end.qdot[i]) * a2;
+        }
+        s.recycle_point(mid);
         s.solve_with_last_jacobian(&mut est);
         Ok(Trial {
             point: end,

@@ -118,7 +118,12 @@ struct Solver<'a> {
     segment_start: f64,
     /// Stored entries of G and C, for the hold rule's cost of a step.
     step_entries: f64,
+    /// Vectors of the circuit's size that earlier steps no longer need (`StageSolver::buffer`).
+    spare: Vec<Vec<f64>>,
 }
+
+/// The most vectors `Solver::spare` keeps: a step of any method gives back fewer.
+const SPARE_VECTORS: usize = 16;
 
 impl Solver<'_> {
     /// The Newton guess for a step to `t`: the line through the last two points of this segment.
@@ -214,7 +219,7 @@ impl StageSolver for Solver<'_> {
         let x = match stage.jacobian_key() {
             Some(key) => {
                 // A linear stage is (alpha C + G) x = b(t) + r: one solve, no guess needed.
-                let mut x = vec![0.0; r.len()];
+                let mut x = self.buffer();
                 self.sys.sources_into(t, 1.0, &mut x);
                 for (xi, ri) in x.iter_mut().zip(r) {
                     *xi += ri;
@@ -228,14 +233,28 @@ impl StageSolver for Solver<'_> {
                 x
             }
         };
-        let mut q = vec![0.0; x.len()];
+        let mut q = self.buffer();
         self.sys.charge_into(&x, &mut q);
-        let qdot = q.iter().zip(r).map(|(q, r)| alpha * q - r).collect();
+        let mut qdot = self.buffer();
+        for ((d, q), r) in qdot.iter_mut().zip(&q).zip(r) {
+            *d = alpha * q - r;
+        }
         Ok(Solved { x, q, qdot })
     }
     fn solve_with_last_jacobian(&self, v: &mut [f64]) {
         if let Some(lu) = self.newton.last_factorization() {
             lu.solve(v);
+        }
+    }
+    fn buffer(&mut self) -> Vec<f64> {
+        let n = self.sys.size();
+        let mut v = self.spare.pop().unwrap_or_default();
+        v.resize(n, 0.0);
+        v
+    }
+    fn recycle(&mut self, v: Vec<f64>) {
+        if self.spare.len() < SPARE_VECTORS {
+            self.spare.push(v);
         }
     }
 }
@@ -511,6 +530,7 @@ pub fn simulate_system(
         prev: None,
         segment_start: 0.0,
         step_entries: (sys.g().stored() + sys.c().stored()) as f64,
+        spare: Vec::new(),
     };
     let mut norm = ErrorNorm {
         settings,
@@ -725,9 +745,13 @@ pub fn simulate_system(
             };
             norm.observe(&pt.x);
             rec.record(tj, &pt.x);
-            window.push_back((tj, pt.x.clone()));
+            let mut kept = solver.buffer();
+            kept.copy_from_slice(&pt.x);
+            window.push_back((tj, kept));
             if window.len() > 4 {
-                window.pop_front();
+                if let Some((_, v)) = window.pop_front() {
+                    solver.recycle(v);
+                }
             }
             let new = Point {
                 t: tj,
@@ -735,7 +759,12 @@ pub fn simulate_system(
                 q: pt.q,
                 qdot: pt.qdot,
             };
-            solver.prev = Some(std::mem::replace(&mut solver.cur, new));
+            let before = std::mem::replace(&mut solver.cur, new);
+            if let Some(old) = solver.prev.replace(before) {
+                solver.recycle(old.x);
+                solver.recycle(old.q);
+                solver.recycle(old.qdot);
+            }
             stats.steps += 1;
         }
         h = next_h;

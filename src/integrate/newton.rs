@@ -240,7 +240,12 @@ impl Newton {
                 }
             },
         }
-        self.last_factorization().expect("factored above").solve(x);
+        // The update vector, unused by a linear solve, is the LU's working vector.
+        let mut scratch = std::mem::take(&mut self.dx);
+        self.last_factorization()
+            .expect("factored above")
+            .solve_with(x, &mut scratch);
+        self.dx = scratch;
         self.work.newton_iterations += 1;
         if x.iter().any(|v| !v.is_finite()) {
             return Err(NewtonFailure::NotFinite);
