@@ -85,6 +85,8 @@ pub struct Structure {
 pub struct Factors {
     pub structure: std::sync::Arc<Structure>,
     l_val: Vec<f64>,
+    /// U's entries above the diagonal, each divided by its row's pivot (U = D V, V unit upper
+    /// triangular; only the solve reads them).
     u_val: Vec<f64>,
     /// Reciprocals of U's diagonal: back substitution multiplies, since a division's latency would
     /// chain from one unknown to the next (on a ladder it was half the solve's time).
@@ -203,7 +205,7 @@ pub fn factor_pivoting(a: &Csc<'_>, q: &[usize]) -> Result<Factors, Failure> {
         u_col.sort_unstable_by_key(|e| e.0);
         for &(r, v) in &u_col {
             u_idx.push(r);
-            u_val.push(v);
+            u_val.push(v * u_inv[r]);
         }
         u_ptr.push(u_idx.len());
         l_idx.push(ipiv);
@@ -288,7 +290,7 @@ pub fn refactor_reusing(
         for (&j, u) in s.u_idx[ur.clone()].iter().zip(&mut u_val[ur]) {
             let xj = x[j];
             x[j] = 0.0;
-            *u = xj;
+            *u = xj * u_inv[j];
             if xj != 0.0 {
                 let lr = s.l_ptr[j]..s.l_ptr[j + 1];
                 for (&i, &l) in s.l_idx[lr.clone()].iter().zip(&l_val[lr]) {
@@ -369,9 +371,15 @@ impl Factors {
                 };
             }
         }
+        // U = D V with V unit upper triangular (U's entries are kept divided by their row's pivot), so
+        // back substitution divides by the pivots in one pass off the chain and the chain itself is a
+        // multiply and a subtract per unknown.
+        for (v, d) in y.iter_mut().zip(&self.u_inv) {
+            *v *= d;
+        }
         let mut carried = y[n - 1];
         for k in (0..n).rev() {
-            let yk = carried * self.u_inv[k];
+            let yk = carried;
             y[k] = yk;
             let mut prev = None;
             if yk != 0.0 {
