@@ -66,7 +66,7 @@ pub fn column_order(n: usize, col_ptr: &[usize], row_idx: &[usize]) -> Option<Ve
 
 /// The pivot sequence and the patterns of L and U, in pivot order: step k factors column `q[k]` and
 /// takes its pivot from row `p[k]` (`pinv` is the inverse). L is unit lower triangular (diagonal not
-/// stored); U's entries above the diagonal are stored by column in increasing row order.
+/// stored); the entries of L below and of U above the diagonal are stored by column in increasing row order.
 #[derive(Debug)]
 pub struct Structure {
     n: usize,
@@ -224,10 +224,17 @@ pub fn factor_pivoting(a: &Csc<'_>, q: &[usize]) -> Result<Factors, Failure> {
     let mut s_idx = Vec::with_capacity(l_idx.len() - n);
     let mut s_val = Vec::with_capacity(l_idx.len() - n);
     s_ptr.push(0);
+    // Each column's rows in increasing order, so that a column that updates the next unknown holds it
+    // first (see `solve_with`). The entries of a column update distinct rows, so their order does not
+    // change any sum.
+    let mut column: Vec<(usize, f64)> = Vec::new();
     for k in 0..n {
-        for p in l_ptr[k] + 1..l_ptr[k + 1] {
-            s_idx.push(pinv[l_idx[p]]);
-            s_val.push(l_val[p]);
+        column.clear();
+        column.extend((l_ptr[k] + 1..l_ptr[k + 1]).map(|p| (pinv[l_idx[p]], l_val[p])));
+        column.sort_unstable_by_key(|e| e.0);
+        for &(i, v) in &column {
+            s_idx.push(i);
+            s_val.push(v);
         }
         s_ptr.push(s_idx.len());
     }
@@ -349,19 +356,20 @@ impl Factors {
         // both substitutions one long dependency chain. The update of the next unknown is the last one
         // it receives, so it is applied in a register and carried to the next column instead of going
         // through memory: the same operations in the same order, without a store and reload on the
-        // chain.
+        // chain. Rows are sorted within each column of L and U, so the next unknown is the first entry
+        // of L's column and the last of U's.
         let mut yj = y[0];
         for j in 0..n {
             y[j] = yj;
+            let (mut lo, hi) = (s.l_ptr[j], s.l_ptr[j + 1]);
             let mut next = None;
             if yj != 0.0 {
-                let r = s.l_ptr[j]..s.l_ptr[j + 1];
-                for (&i, &l) in s.l_idx[r.clone()].iter().zip(&self.l_val[r]) {
-                    if i == j + 1 {
-                        next = Some(l);
-                    } else {
-                        y[i] -= l * yj;
-                    }
+                if lo < hi && s.l_idx[lo] == j + 1 {
+                    next = Some(self.l_val[lo]);
+                    lo += 1;
+                }
+                for (&i, &l) in s.l_idx[lo..hi].iter().zip(&self.l_val[lo..hi]) {
+                    y[i] -= l * yj;
                 }
             }
             if j + 1 < n {
@@ -381,15 +389,15 @@ impl Factors {
         for k in (0..n).rev() {
             let yk = carried;
             y[k] = yk;
+            let (lo, mut hi) = (s.u_ptr[k], s.u_ptr[k + 1]);
             let mut prev = None;
             if yk != 0.0 {
-                let r = s.u_ptr[k]..s.u_ptr[k + 1];
-                for (&i, &u) in s.u_idx[r.clone()].iter().zip(&self.u_val[r]) {
-                    if i + 1 == k {
-                        prev = Some(u);
-                    } else {
-                        y[i] -= u * yk;
-                    }
+                if lo < hi && s.u_idx[hi - 1] + 1 == k {
+                    prev = Some(self.u_val[hi - 1]);
+                    hi -= 1;
+                }
+                for (&i, &u) in s.u_idx[lo..hi].iter().zip(&self.u_val[lo..hi]) {
+                    y[i] -= u * yk;
                 }
             }
             if k > 0 {
