@@ -105,7 +105,7 @@ pub trait StageSolver {
     /// circuit by one solve of its step matrix).
     fn solve(&mut self, alpha: f64, r: &[f64], t: f64) -> Result<Solved, NewtonFailure>;
     /// Solves J y = v in place with the Jacobian of the last stage solved.
-    fn solve_with_last_jacobian(&self, v: &mut [f64]);
+    fn solve_with_last_jacobian(&mut self, v: &mut [f64]);
     /// A vector of the circuit's size to fill (what it holds is unspecified), recycled from earlier
     /// steps so that a step allocates nothing.
     fn buffer(&mut self) -> Vec<f64>;

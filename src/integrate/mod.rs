@@ -241,10 +241,8 @@ impl StageSolver for Solver<'_> {
         }
         Ok(Solved { x, q, qdot })
     }
-    fn solve_with_last_jacobian(&self, v: &mut [f64]) {
-        if let Some(lu) = self.newton.last_factorization() {
-            lu.solve(v);
-        }
+    fn solve_with_last_jacobian(&mut self, v: &mut [f64]) {
+        self.newton.solve_with_last(v);
     }
     fn buffer(&mut self) -> Vec<f64> {
         let n = self.sys.size();
@@ -630,7 +628,7 @@ pub fn simulate_system(
             return Err(RunError::StepTooSmall { time: t, step: hh });
         }
 
-        let trial = match formula.attempt(&mut solver, hh) {
+        let mut trial = match formula.attempt(&mut solver, hh) {
             Ok(tr) => {
                 singular_cuts = 0;
                 tr
@@ -673,8 +671,12 @@ pub fn simulate_system(
         let (accepted_points, next_h): (Vec<Solved>, f64) = if sc.fixed_step.is_some() {
             (vec![trial.point], sc.fixed_step.unwrap_or(hh))
         } else {
-            let ratio = match &trial.estimate {
-                Estimate::Embedded(e) => Some(norm.ratio(e, &solver.cur.x, &trial.point.x)),
+            let ratio = match &mut trial.estimate {
+                Estimate::Embedded(e) => {
+                    let r = norm.ratio(e, &solver.cur.x, &trial.point.x);
+                    solver.recycle(std::mem::take(e));
+                    Some(r)
+                }
                 Estimate::FromHistory { coefficient }
                     if window.len() >= points_needed(trial.order) =>
                 {

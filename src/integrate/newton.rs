@@ -154,6 +154,16 @@ impl Newton {
         }
     }
 
+    /// Solves J v = (v on entry) in place with the last iteration's factorization, if any, working in
+    /// the update vector (`Lu::solve_with`).
+    pub fn solve_with_last(&mut self, v: &mut [f64]) {
+        let mut scratch = std::mem::take(&mut self.dx);
+        if let Some(lu) = self.last_factorization() {
+            lu.solve_with(v, &mut scratch);
+        }
+        self.dx = scratch;
+    }
+
     /// Solves `eq` from the guess in `x`. A linear problem (one with a Jacobian key) is solved by one
     /// exact step.
     pub fn solve<E: Equations>(
