@@ -898,7 +898,26 @@ fn double_check(
 
 #[cfg(test)]
 mod tests {
-    use super::best_hold;
+    use super::{best_hold, lane_peaks};
+
+    /// The lane maximum equals a plain maximum of |a_i| that skips NaN, wherever the largest entry and
+    /// a NaN sit (in the lanes or the remainder), and flags the NaN.
+    #[test]
+    fn lane_peaks_is_the_largest_magnitude_and_flags_nan() {
+        for n in [0usize, 1, 3, 4, 5, 8, 11] {
+            let base: Vec<f64> = (0..n).map(|i| ((i * 7) % 5) as f64 - 2.0).collect();
+            for at in 0..n {
+                let mut v = base.clone();
+                v[at] = -9.5;
+                assert_eq!(lane_peaks(&v), (9.5, false), "n = {n}, peak at {at}");
+                let mut w = base.clone();
+                w[at] = f64::NAN;
+                let plain = w.iter().fold(0.0f64, |m, x| m.max(x.abs()));
+                assert_eq!(lane_peaks(&w), (plain, true), "n = {n}, NaN at {at}");
+            }
+        }
+        assert_eq!(lane_peaks(&[]), (0.0, false));
+    }
 
     /// The hold solves g ln g - g + 1 = k inside its bounds, and clamps outside them.
     #[test]
