@@ -505,11 +505,14 @@ impl Matrix {
                     .map(|f| Lu::Sparse(Box::new(f)));
             }
         }
+        // Entries outside this matrix (C and G of another size) are left out, as `set_combination`
+        // leaves out their rows.
+        let n = self.n;
         self.zero();
-        for (r, col, v) in c.entries() {
+        for (r, col, v) in c.entries().filter(|&(r, col, _)| r < n && col < n) {
             self.add(r, col, alpha * v);
         }
-        for (r, col, v) in g.entries() {
+        for (r, col, v) in g.entries().filter(|&(r, col, _)| r < n && col < n) {
             self.add(r, col, v);
         }
         self.factor_reusing(spare)
