@@ -475,9 +475,10 @@ impl Matrix {
 
     /// Factors `alpha c + g` without assembling it into this matrix, whose pattern must hold theirs (as a
     /// constant step matrix's does): the sparse LU reads the sum straight into its compressed columns, C
-    /// and G having been laid out there once (the same sums, (0 + alpha c) + g, as `set_combination`).
-    /// The dense LU, and a pattern that lacks an entry of theirs, assemble this matrix first. `spare` is
-    /// as for `factor_reusing`.
+    /// and G having been laid out there once (the same sums, (0 + alpha c) + g, as `set_combination`,
+    /// signed zeros included: an entry C lacks gives (0 + alpha 0) + g = g for a finite alpha). The
+    /// dense LU, a non-finite alpha and a pattern that lacks an entry of theirs assemble this matrix
+    /// first. `spare` is as for `factor_reusing`.
     pub fn factor_combination(
         &mut self,
         alpha: f64,
@@ -485,7 +486,7 @@ impl Matrix {
         g: &Packed,
         spare: Option<Lu>,
     ) -> Result<Lu, Singular> {
-        if self.uses_sparse() {
+        if self.uses_sparse() && alpha.is_finite() {
             let plan = Arc::clone(self.plan());
             let known = self
                 .combination
@@ -495,7 +496,11 @@ impl Matrix {
                 self.combination = self.lay_out(&plan, c, g).map(Arc::new);
             }
             if let Some(m) = &self.combination {
-                let values: Vec<f64> = m.c.iter().zip(&m.g).map(|(c, g)| alpha * c + g).collect();
+                let values: Vec<f64> =
+                    m.c.iter()
+                        .zip(&m.g)
+                        .map(|(c, g)| (0.0 + alpha * c) + g)
+                        .collect();
                 let spare = match spare {
                     Some(Lu::Sparse(f)) => Some(*f),
                     _ => None,

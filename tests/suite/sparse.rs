@@ -172,7 +172,9 @@ fn factoring_a_combination_equals_factoring_the_assembled_matrix() {
                         .factor_combination(alpha, cp, g, None)
                         .expect("factors"),
                 );
-                assert!(got == want, "{at}: solves differ");
+                // Bits, so that a signed zero counts.
+                let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
+                assert!(bits(&got) == bits(&want), "{at}: solves differ");
                 let got = solve(
                     bare.factor_combination(alpha, cp, g, None)
                         .expect("factors"),
@@ -185,5 +187,55 @@ fn factoring_a_combination_equals_factoring_the_assembled_matrix() {
                 assert!(worst <= 1e-12, "{at}, bare pattern: {worst:e}");
             }
         }
+    }
+}
+
+/// Regression: `factor_combination` once summed alpha c + g, where assembling sums (0 + alpha c) + g;
+/// with stored negative zeros in C and G (a zero-valued element across two nodes) the two differ in the
+/// sign of a zero, and the solution with them (reported by an independent review).
+#[test]
+fn a_combination_keeps_the_signed_zeros_of_the_assembled_matrix() {
+    use ringtrue::equations::matrix::Matrix;
+    let n = 20;
+    let (mut c, mut g) = (Matrix::new(n), Matrix::new(n));
+    for i in 0..n {
+        g.add(i, i, 1.0);
+    }
+    for (r, col) in [(0, 1), (1, 0)] {
+        g.add(r, col, -0.0);
+        c.add(r, col, -0.0);
+    }
+    for i in 2..n - 1 {
+        // a 1 mF capacitor from node i to node i + 1
+        for (r, col, v) in [
+            (i, i, 1e-3),
+            (i + 1, i + 1, 1e-3),
+            (i, i + 1, -1e-3),
+            (i + 1, i, -1e-3),
+        ] {
+            c.add(r, col, v);
+        }
+    }
+    let mut pattern = Matrix::with_diagonal(n);
+    pattern.set_backend(Backend::Sparse);
+    pattern.set_combination(1.0, &c, &g);
+    let (cp, gp) = (c.packed(), g.packed());
+    let mut rhs = vec![0.0; n];
+    rhs[0] = -0.0;
+    rhs[1] = 1.0;
+    rhs[5] = 2.0;
+    for alpha in [1.0, 2.0] {
+        let mut assembled = pattern.clone();
+        assembled.set_combination(alpha, &c, &g);
+        let mut direct = pattern.clone();
+        let mut want = rhs.clone();
+        assembled.factor().expect("factors").solve(&mut want);
+        let mut got = rhs.clone();
+        direct
+            .factor_combination(alpha, &cp, &gp, None)
+            .expect("factors")
+            .solve(&mut got);
+        let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
+        assert_eq!(bits(&got), bits(&want), "alpha = {alpha}");
     }
 }
