@@ -66,7 +66,8 @@ pub fn column_order(n: usize, col_ptr: &[usize], row_idx: &[usize]) -> Option<Ve
 
 /// The pivot sequence and the patterns of L and U, in pivot order: step k factors column `q[k]` and
 /// takes its pivot from row `p[k]` (`pinv` is the inverse). L is unit lower triangular (diagonal not
-/// stored); the entries of L below and of U above the diagonal are stored by column in increasing row order.
+/// stored); the entries of L below and of U above the diagonal are stored by column in increasing row
+/// order.
 #[derive(Debug)]
 pub struct Structure {
     n: usize,
