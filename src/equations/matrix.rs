@@ -354,11 +354,8 @@ impl Matrix {
     /// same as `factor`'s).
     pub fn factor_reusing(&self, spare: Option<Lu>) -> Result<Lu, Singular> {
         if self.uses_sparse() {
-            let spare = match spare {
-                Some(Lu::Sparse(f)) => Some(*f),
-                _ => None,
-            };
-            self.factor_sparse(spare).map(|s| Lu::Sparse(Box::new(s)))
+            self.factor_sparse(Lu::sparse_storage(spare))
+                .map(|s| Lu::Sparse(Box::new(s)))
         } else {
             self.factor_dense().map(Lu::Dense)
         }
@@ -501,12 +498,8 @@ impl Matrix {
                         .zip(&m.g)
                         .map(|(c, g)| (0.0 + alpha * c) + g)
                         .collect();
-                let spare = match spare {
-                    Some(Lu::Sparse(f)) => Some(*f),
-                    _ => None,
-                };
                 return self
-                    .factor_sparse_values(&plan, &values, spare)
+                    .factor_sparse_values(&plan, &values, Lu::sparse_storage(spare))
                     .map(|f| Lu::Sparse(Box::new(f)));
             }
         }
@@ -607,6 +600,14 @@ impl Lu {
         match self {
             Lu::Dense(d) => d.solve(b),
             Lu::Sparse(s) => s.solve(b),
+        }
+    }
+
+    /// The sparse factors of a spare factorization, whose storage a new sparse one may reuse.
+    fn sparse_storage(spare: Option<Lu>) -> Option<Factors> {
+        match spare {
+            Some(Lu::Sparse(f)) => Some(*f),
+            _ => None,
         }
     }
 

@@ -269,11 +269,7 @@ impl Newton {
             },
         }
         // The update vector, unused by a linear solve, is the LU's working vector.
-        let mut scratch = std::mem::take(&mut self.dx);
-        self.last_factorization()
-            .expect("factored above")
-            .solve_with(x, &mut scratch);
-        self.dx = scratch;
+        self.solve_with_last(x);
         self.work.newton_iterations += 1;
         if !all_finite(x) {
             return Err(NewtonFailure::NotFinite);
