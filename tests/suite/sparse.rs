@@ -127,6 +127,11 @@ fn sparse_and_dense_agree_above_the_automatic_limit() {
     compare("ladder-148", &rc_ladder(148));
 }
 
+/// The bit patterns of a vector, so that comparing them tells signed zeros apart.
+fn bits(v: &[f64]) -> Vec<u64> {
+    v.iter().map(|x| x.to_bits()).collect()
+}
+
 /// `factor_combination` factors alpha C + G without assembling it. On the step-matrix pattern its
 /// solves must be bit-equal to those of the same matrix assembled with the same history of learned
 /// pivots (the same sums, (0 + alpha c) + g, then the same LU), for both LUs and for later alphas through
@@ -172,8 +177,6 @@ fn factoring_a_combination_equals_factoring_the_assembled_matrix() {
                         .factor_combination(alpha, cp, g, None)
                         .expect("factors"),
                 );
-                // Bits, so that a signed zero counts.
-                let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
                 assert!(bits(&got) == bits(&want), "{at}: solves differ");
                 let got = solve(
                     bare.factor_combination(alpha, cp, g, None)
@@ -235,7 +238,6 @@ fn a_combination_keeps_the_signed_zeros_of_the_assembled_matrix() {
             .factor_combination(alpha, &cp, &gp, None)
             .expect("factors")
             .solve(&mut got);
-        let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
         assert_eq!(bits(&got), bits(&want), "alpha = {alpha}");
     }
 }
