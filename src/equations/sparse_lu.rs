@@ -157,17 +157,18 @@ pub fn factor_pivoting(a: &Csc<'_>, q: &[usize]) -> Result<Factors, Failure> {
                 } else {
                     (l_ptr[jj] + 1, l_ptr[jj + 1])
                 };
+                let below = &l_idx[start..end];
                 let mut child = None;
-                let mut p = start + *pos;
-                while p < end {
-                    let i = l_idx[p];
+                let mut p = *pos;
+                while p < below.len() {
+                    let i = below[p];
                     p += 1;
                     if mark[i] != k {
                         child = Some(i);
                         break;
                     }
                 }
-                *pos = p - start;
+                *pos = p;
                 match child {
                     Some(i) => {
                         mark[i] = k;
@@ -191,8 +192,9 @@ pub fn factor_pivoting(a: &Csc<'_>, q: &[usize]) -> Result<Factors, Failure> {
                 continue;
             }
             let xj = x[j];
-            for p in l_ptr[jj] + 1..l_ptr[jj + 1] {
-                x[l_idx[p]] -= l_val[p] * xj;
+            let lr = l_ptr[jj] + 1..l_ptr[jj + 1];
+            for (&i, &l) in l_idx[lr.clone()].iter().zip(&l_val[lr]) {
+                x[i] -= l * xj;
             }
         }
         // The pivot: the largest candidate, or the diagonal when it is large enough.
