@@ -66,7 +66,7 @@ pub fn poles(circuit: &Circuit, settings: &Settings) -> Result<Vec<Pole>, Refere
     sys.add_charge_jacobian(&x0, 1.0, &mut cj);
     let c = cj.to_dense();
     let g = gj.to_dense();
-    pencil_poles(&c, &g)
+    pencil_poles(&c, &g).map_err(|e| e.named(&sys))
 }
 
 /// The finite generalized eigenvalues of C s + G (C x' + G x = 0).
@@ -75,7 +75,13 @@ pub fn pencil_poles(c: &DMatrix<f64>, g: &DMatrix<f64>) -> Result<Vec<Pole>, Ref
     if red.r == 0 {
         return Ok(Vec::new());
     }
-    let eig = red.a.complex_eigenvalues();
+    let iterations = crate::reference::exact::decomposition_iterations(red.r);
+    let eig = nalgebra::Schur::try_new(red.a.clone(), f64::EPSILON, iterations)
+        .ok_or(ReferenceError::NoConvergence {
+            what: "Schur decomposition of the dynamic part",
+            iterations,
+        })?
+        .complex_eigenvalues();
     let mut out: Vec<Pole> = eig.iter().map(|z| Pole { re: z.re, im: z.im }).collect();
     out.sort_by(|a, b| {
         a.magnitude()

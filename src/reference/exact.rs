@@ -75,6 +75,39 @@ pub struct Reduction {
     pub bmat: DMatrix<f64>,
 }
 
+/// The iteration limit of an n x n singular value or Schur decomposition: their QR sweeps converge in
+/// a few iterations per value (Golub and Van Loan, "Matrix Computations", 4th ed., 7.5 and 8.6, about two
+/// per eigenvalue on average; from memory), so a hundred per value plus a margin is reached only by an
+/// input they cannot split, which is then reported instead of looping.
+pub fn decomposition_iterations(n: usize) -> usize {
+    100 * n + 1000
+}
+
+/// The matrix exponential of a matrix with finite entries. nalgebra's `exp` (scaling and squaring with
+/// Pade approximants) estimates its scaling from norms of powers up to the tenth; past a norm of about
+/// 1e38 the eighth power overflows, the scaling becomes infinite and its squaring loop never ends. Above
+/// `EXP_DIRECT_NORM` the matrix is first divided by a power of two, exactly, and the result squared as
+/// many times: exp(M) = exp(M / 2^k)^(2^k), the same scaling and squaring (Moler and Van Loan,
+/// "Nineteen dubious ways to compute the exponential of a matrix, twenty-five years later", SIAM Review
+/// 45, 2003, method 3). Below it, nalgebra's `exp` is called unchanged.
+fn expm(m: DMatrix<f64>) -> DMatrix<f64> {
+    let norm = (0..m.ncols())
+        .map(|j| m.column(j).iter().map(|v| v.abs()).sum::<f64>())
+        .fold(0.0f64, f64::max);
+    if norm <= EXP_DIRECT_NORM || !norm.is_finite() {
+        return m.exp();
+    }
+    let k = (norm / EXP_DIRECT_NORM).log2().ceil() as i32;
+    let mut e = (m * 2f64.powi(-k)).exp();
+    for _ in 0..k {
+        e = &e * &e;
+    }
+    e
+}
+
+/// The largest 1-norm handed to nalgebra's `exp` as it is (2^100, about 1.3e30; see `expm`).
+const EXP_DIRECT_NORM: f64 = 1.2676506002282294e30;
+
 impl Reduction {
     pub fn new(c: &DMatrix<f64>, g: &DMatrix<f64>) -> Result<Reduction, ReferenceError> {
         let n = c.nrows();
@@ -106,9 +139,30 @@ impl Reduction {
         });
         let ct = DMatrix::from_fn(n, n, |i, j| cr[(i, j)] * dc[j]);
         let gt = DMatrix::from_fn(n, n, |i, j| gr[(i, j)] * dc[j]);
+        // A value whose reciprocal overflows (a capacitance of 1e-320 F) leaves infinities here, on
+        // which the decompositions below would never converge.
+        for (what, m) in [("an entry of C", &ct), ("an entry of G", &gt)] {
+            if let Some(k) = m.iter().position(|v| !v.is_finite()) {
+                // Column-major: entry k is (k mod n, k div n); name the row unless its scale is finite.
+                let (i, j) = (k % n, k / n);
+                let index = if dr[i].is_finite() { j } else { i };
+                return Err(ReferenceError::OutOfRange {
+                    what,
+                    index,
+                    unknown: format!("row {index}"),
+                    value: m[k],
+                });
+            }
+        }
 
         // Split by the singular values of the equilibrated C.
-        let svd = ct.clone().svd(true, true);
+        let iterations = decomposition_iterations(n);
+        let svd = nalgebra::SVD::try_new(ct.clone(), true, true, f64::EPSILON, iterations).ok_or(
+            ReferenceError::NoConvergence {
+                what: "singular value decomposition of C",
+                iterations,
+            },
+        )?;
         let (u, vt) = (svd.u.expect("u requested"), svd.v_t.expect("v_t requested"));
         let sigma = svd.singular_values;
         let mut order: Vec<usize> = (0..n).collect();
@@ -206,7 +260,7 @@ impl Exact {
         let n = sys.size();
         let c = sys.c().to_dense();
         let g = sys.g().to_dense();
-        let red = Reduction::new(&c, &g)?;
+        let red = Reduction::new(&c, &g).map_err(|e| e.named(&sys))?;
         let Reduction {
             r,
             ref dc,
@@ -316,10 +370,13 @@ impl Exact {
                 .map(|j| gen.column(j).iter().map(|v| v.abs()).sum::<f64>())
                 .fold(0.0f64, f64::max);
             let span = t1 - t0;
+            if !(norm * span).is_finite() || gen.iter().any(|v| !v.is_finite()) {
+                return Err(ReferenceError::SpanTooLong { t0, t1 });
+            }
             let pieces = ((norm * span / 64.0).ceil() as usize).clamp(1, 16384);
             let dt = span / pieces as f64;
-            let step = (&gen * dt).exp();
-            let half = (&gen * (0.5 * dt)).exp();
+            let step = expm(&gen * dt);
+            let half = expm(&gen * (0.5 * dt));
             let step2 = &half * &half;
             let mut xi = start.clone();
             let mut xi2 = start.clone();
@@ -344,7 +401,7 @@ impl Exact {
                 .amax()
                 .max(start.rows(0, r).amax())
                 .max(1e-300);
-            let whole = (&gen * span).exp() * &start;
+            let whole = expm(&gen * span) * &start;
             // Every product of the walk adds a few rounding errors: an a priori bound for the chain
             // (standard forward error accumulation, 4 eps per product).
             products += pieces;
@@ -377,7 +434,7 @@ impl Exact {
             .min(self.segments.len() - 1);
         let seg = &self.segments[k];
         let dt = (t - seg.t0).min(seg.t1 - seg.t0).max(0.0);
-        let xi = (&seg.generator * dt).exp() * &seg.start;
+        let xi = expm(&seg.generator * dt) * &seg.start;
         let red = &self.red;
         let y1 = xi.rows(0, red.r).into_owned();
         let n = self.sys.size();
@@ -419,5 +476,33 @@ impl Exact {
     /// Number of sine oscillators carried in the augmented system.
     pub fn oscillators(&self) -> usize {
         self.sines.len()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// exp(T [[-a, b], [0, 0]]) = [[e^-aT, b (1 - e^-aT) / a], [0, 1]] (the block is a first-order lag
+    /// driven by a constant, closed form). At a 1-norm of 2e39 nalgebra's own `exp` never returns; the
+    /// scaled exponential gives the closed form, and below the threshold it is nalgebra's unchanged.
+    #[test]
+    fn expm_matches_the_closed_form_past_nalgebras_range() {
+        let (a, b) = (1e9, 3e9);
+        for t in [1e-9, 2e-9, 1e30] {
+            let m = DMatrix::from_row_slice(2, 2, &[-a * t, b * t, 0.0, 0.0]);
+            let e = expm(m.clone());
+            let decay = (-a * t).exp();
+            let want = [decay, 0.0, b * (1.0 - decay) / a, 1.0];
+            for (k, (&got, &w)) in e.iter().zip(&want).enumerate() {
+                assert!(
+                    (got - w).abs() <= 1e-12 * w.abs().max(1.0),
+                    "t = {t}, entry {k}: {got} vs {w}"
+                );
+            }
+            if t < 1.0 {
+                assert_eq!(e, m.exp(), "below the threshold expm is nalgebra's exp");
+            }
+        }
     }
 }

@@ -13,6 +13,7 @@ pub mod converged;
 pub mod exact;
 
 use crate::circuit::{Circuit, ReferenceSpec};
+use crate::equations::System;
 use crate::integrate::RunError;
 use crate::settings::Settings;
 
@@ -40,6 +41,22 @@ pub enum ReferenceError {
     NotLinear { elements: Vec<String> },
     #[error("the circuit has index 2 (a loop of capacitors and voltage sources, or a cutset of inductors and current sources): the exact reference cannot split it; add a small series resistance to the loop or a large resistance across the cutset, or use reference: converged")]
     IndexTwo,
+    #[error("the circuit's equations cannot be scaled for the exact reference: at {unknown}, {what} is {value:e} once scaled, beyond double precision (a capacitance, inductance or resistance there near 1e-308 or 1e308); correct the value, or use reference: converged")]
+    OutOfRange {
+        what: &'static str,
+        /// The unknown (row or column of the equations) whose scale overflowed.
+        index: usize,
+        /// How messages name it: `row N` until `named` gives the circuit's name.
+        unknown: String,
+        value: f64,
+    },
+    #[error("the exact reference's {what} did not converge in {iterations} iterations; check the circuit's values for extremes, or use reference: converged")]
+    NoConvergence {
+        what: &'static str,
+        iterations: usize,
+    },
+    #[error("the exact reference cannot span the interval from {} s to {} s: the circuit's fastest rate times its length overflows double precision; shorten the run's stop time, or use reference: converged", crate::units::shortest(*t0), crate::units::shortest(*t1))]
+    SpanTooLong { t0: f64, t1: f64 },
     #[error("the state at t = 0 could not be found: {0}")]
     Start(RunError),
     #[error("closed form '{formula}': {message}")]
@@ -57,6 +74,23 @@ pub enum ReferenceError {
         signal: String,
         available: Vec<String>,
     },
+}
+
+impl ReferenceError {
+    /// Names the unknown of an `OutOfRange` error after the circuit's node or element.
+    pub fn named(self, sys: &System) -> Self {
+        match self {
+            ReferenceError::OutOfRange {
+                what, index, value, ..
+            } if index < sys.size() => ReferenceError::OutOfRange {
+                what,
+                index,
+                unknown: sys.describe_unknown(index),
+                value,
+            },
+            other => other,
+        }
+    }
 }
 
 fn list(v: &[String]) -> String {

@@ -280,3 +280,85 @@ fn bad_flags_are_usage_errors() {
         assert_eq!(out.code, 2, "{args:?}: {}", out.stderr);
     }
 }
+
+/// Regression (found by a mutation sweep of the shipped circuits): a capacitance whose reciprocal
+/// overflows (5e-324 F, the least subnormal) left infinities in the exact reference's scaled C, on which
+/// the singular value decomposition looped for ever. `reference` and `poles` now stop at once with exit
+/// code 2 and name the node.
+#[test]
+fn a_capacitance_beyond_double_precision_is_refused_by_the_exact_reference() {
+    let dir = scratch("subnormal");
+    let path = dir.join("subnormal.yaml");
+    std::fs::write(&path, GOOD.replace("value: 1n", "value: 5e-324")).unwrap();
+    let p = path.to_str().unwrap();
+    let csv = dir.join("r.csv");
+    for args in [
+        vec![
+            "reference",
+            "--points",
+            "5",
+            "--csv",
+            csv.to_str().unwrap(),
+            p,
+        ],
+        vec!["poles", p],
+    ] {
+        let out = ringtrue(&args);
+        assert_eq!(out.code, 2, "{args:?}: exit {}\n{}", out.code, out.stderr);
+        for needle in ["subnormal.yaml", "node out", "cannot be scaled"] {
+            assert!(
+                out.stderr.contains(needle),
+                "{args:?}: message lacks '{needle}':\n{}",
+                out.stderr
+            );
+        }
+        assert!(!out.stderr.contains("panicked"));
+    }
+}
+
+/// Regression (found by a mutation sweep): the exact reference of a run far longer than its time
+/// constants. A stop of 1e35 s on a 1 us RC made nalgebra's matrix exponential loop for ever (its
+/// scaling overflowed); a stop of 1e303 s wrote NaN with exit code 0. The first now gives the settled
+/// value, 1 V (the RC's step response 1 - exp(-t / RC), closed form), and the second is refused.
+#[test]
+fn an_exact_reference_over_a_very_long_run_settles_or_is_refused() {
+    let dir = scratch("longrun");
+    let csv = dir.join("r.csv");
+    let c = csv.to_str().unwrap();
+    let path = dir.join("long.yaml");
+    std::fs::write(&path, GOOD.replace("stop: 1u", "stop: 1e35")).unwrap();
+    let out = ringtrue(&[
+        "reference",
+        "--points",
+        "5",
+        "--csv",
+        c,
+        path.to_str().unwrap(),
+    ]);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    let text = std::fs::read_to_string(&csv).unwrap();
+    let last: Vec<f64> = text
+        .lines()
+        .last()
+        .unwrap()
+        .split(',')
+        .map(|v| v.parse().unwrap())
+        .collect();
+    assert_eq!(last[0], 1e35);
+    assert!((last[1] - 1.0).abs() < 1e-12, "settled value {}", last[1]);
+
+    let path = dir.join("vlong.yaml");
+    std::fs::write(&path, GOOD.replace("stop: 1u", "stop: 1e303")).unwrap();
+    let out = ringtrue(&[
+        "reference",
+        "--points",
+        "5",
+        "--csv",
+        c,
+        path.to_str().unwrap(),
+    ]);
+    assert_eq!(out.code, 2, "{}", out.stderr);
+    assert!(out.stderr.contains("vlong.yaml"), "{}", out.stderr);
+    assert!(out.stderr.contains("cannot span"), "{}", out.stderr);
+    assert!(!out.stderr.contains("panicked"));
+}
