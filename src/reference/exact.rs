@@ -83,7 +83,7 @@ pub fn decomposition_iterations(n: usize) -> usize {
     100 * n + 1000
 }
 
-/// The matrix exponential of a matrix with finite entries. nalgebra's `exp` (scaling and squaring with
+/// The matrix exponential of a matrix with finite entries (all NaN otherwise). nalgebra's `exp` (scaling and squaring with
 /// Pade approximants) estimates its scaling from norms of powers up to the tenth; past a norm of about
 /// 1e38 the eighth power overflows, the scaling becomes infinite and its squaring loop never ends. Above
 /// `EXP_DIRECT_NORM` the matrix is first divided by a power of two, exactly, and the result squared as
@@ -94,7 +94,11 @@ fn expm(m: DMatrix<f64>) -> DMatrix<f64> {
     let norm = (0..m.ncols())
         .map(|j| m.column(j).iter().map(|v| v.abs()).sum::<f64>())
         .fold(0.0f64, f64::max);
-    if norm <= EXP_DIRECT_NORM || !norm.is_finite() {
+    if !norm.is_finite() {
+        // Callers check their matrices first; NaN out rather than hand nalgebra a loop.
+        return DMatrix::from_element(m.nrows(), m.ncols(), f64::NAN);
+    }
+    if norm <= EXP_DIRECT_NORM {
         return m.exp();
     }
     let k = (norm / EXP_DIRECT_NORM).log2().ceil() as i32;
