@@ -351,6 +351,12 @@ impl std::error::Error for CircuitError {}
 /// sparse LU numbers (`equations::sparse_lu::MAX_UNKNOWNS`, rows stored in 32 bits).
 pub const MAX_ELEMENTS: usize = u32::MAX as usize / 8;
 
+/// The most breakpoints (source and switch corners) a run may have up to its stop time. Every
+/// breakpoint costs at least one step of every run of an audit and one segment of the exact
+/// reference; a million is already half the default step budget, and a file past it is nearly always
+/// a stop time that lost its unit (0.5 for 0.5u).
+pub const MAX_BREAKPOINTS: f64 = 1e6;
+
 /// Reads and checks the text of a circuit file; `file` names it in messages.
 pub fn parse(text: &str, file: &str) -> Result<Circuit, CircuitError> {
     let raw: raw::RawCircuit = yaml::from_str(text).map_err(|e| {

@@ -105,6 +105,12 @@ pub(super) fn check(c: &Circuit) -> Result<(), CircuitError> {
             }],
         });
     }
+    if let Some(p) = too_many_breakpoints(c) {
+        return Err(CircuitError {
+            file: c.file.clone(),
+            problems: vec![p],
+        });
+    }
     let g = Graph::new(c);
     let mut problems = Vec::new();
     let start = c.run.start;
@@ -289,6 +295,42 @@ fn path(adj: &[Vec<(usize, usize)>], a: usize, b: usize) -> Vec<usize> {
     }
     out.reverse();
     out
+}
+
+/// A source whose corners up to the stop time exceed `MAX_BREAKPOINTS` (counted without building
+/// them, so a stop of 1e30 s costs nothing).
+fn too_many_breakpoints(c: &Circuit) -> Option<Problem> {
+    let stop = c.run.stop;
+    let mut total = 0.0;
+    for e in &c.elements {
+        let count = match &e.kind {
+            ElementKind::VoltageSource { waveform, .. }
+            | ElementKind::CurrentSource { waveform, .. } => waveform.corner_count_estimate(stop),
+            _ => 0.0,
+        };
+        total += count;
+        if count > super::MAX_BREAKPOINTS || total > super::MAX_BREAKPOINTS {
+            return Some(Problem {
+                line: e.line,
+                column: None,
+                subject: Some(format!("element {}", e.name)),
+                message: format!(
+                    "{} about {} breakpoints up to stop = {} s, more than the {} a run may have",
+                    if count == total {
+                        "gives"
+                    } else {
+                        "brings the sources to"
+                    },
+                    crate::units::shortest(total.round()),
+                    crate::units::shortest(stop),
+                    crate::units::shortest(super::MAX_BREAKPOINTS)
+                ),
+                hint: "check run.stop and its unit (0.5u, not 0.5), or lengthen the pulse period"
+                    .to_string(),
+            });
+        }
+    }
+    None
 }
 
 fn first_line_touching(c: &Circuit, node: &str) -> Option<usize> {

@@ -162,15 +162,20 @@ impl Waveform {
         }
     }
 
-    /// Number of corners a pulse train would have up to `stop`, without building them (for budgets).
+    /// At least as many corners as `corners(stop)` gives, counted without building them (for the
+    /// breakpoint limit: a pulse train up to a stop of 1e30 s is counted, not walked).
     pub fn corner_count_estimate(&self, stop: f64) -> f64 {
         match *self {
+            Waveform::Constant(_) => 0.0,
+            Waveform::Step { .. } => 2.0,
             Waveform::Pulse {
                 delay,
                 period: Some(p),
                 ..
             } if p > 0.0 => 4.0 * ((stop - delay).max(0.0) / p + 1.0),
-            _ => 16.0,
+            Waveform::Pulse { .. } => 4.0,
+            Waveform::Sine { .. } => 1.0,
+            Waveform::PiecewiseLinear(ref pts) => pts.len() as f64,
         }
     }
 }

@@ -225,14 +225,19 @@ impl Reduction {
     }
 }
 
-/// One segment between breakpoints: its augmented generator and the augmented state at its start.
+/// One piece of an interval between breakpoints: the interval's augmented generator (an index into
+/// `Exact::generators`, shared by the interval's pieces) and the augmented state at its start.
 #[derive(Debug, Clone)]
 struct Segment {
     t0: f64,
     t1: f64,
-    generator: DMatrix<f64>,
+    generator: usize,
     start: DVector<f64>,
 }
+
+/// The most pieces the exact reference walks in all (each a stored state; the shipped circuits need at
+/// most 131,081). Past it the request is refused rather than left to exhaust memory.
+const MAX_SEGMENTS: usize = 2_000_000;
 
 /// The exact solution of one linear circuit.
 #[derive(Debug, Clone)]
@@ -241,6 +246,8 @@ pub struct Exact {
     red: Reduction,
     sines: Vec<SinePart>,
     segments: Vec<Segment>,
+    /// The augmented generator of each interval between breakpoints.
+    generators: Vec<DMatrix<f64>>,
     x0: Vec<f64>,
     /// The rounding left in the walk, relative to the largest state magnitude: the largest of the
     /// disagreement with the same walk at half the sub-interval, with one exponential over the whole
@@ -325,6 +332,7 @@ impl Exact {
         let m = sines.len();
         let dim = r + 2 * m + 2;
         let mut segments = Vec::with_capacity(times.len());
+        let mut generators = Vec::with_capacity(times.len());
         let mut rounding: f64 = 0.0;
         let mut products = 0usize;
         for w in times.windows(2) {
@@ -378,6 +386,12 @@ impl Exact {
                 return Err(ReferenceError::SpanTooLong { t0, t1 });
             }
             let pieces = ((norm * span / 64.0).ceil() as usize).clamp(1, 16384);
+            if segments.len() + pieces > MAX_SEGMENTS {
+                return Err(ReferenceError::TooManySegments {
+                    limit: MAX_SEGMENTS,
+                    time: t1,
+                });
+            }
             let dt = span / pieces as f64;
             let step = expm(&gen * dt);
             let half = expm(&gen * (0.5 * dt));
@@ -394,7 +408,7 @@ impl Exact {
                 segments.push(Segment {
                     t0: a0,
                     t1: a1,
-                    generator: gen.clone(),
+                    generator: generators.len(),
                     start: xi.clone(),
                 });
                 xi = &step * xi;
@@ -415,6 +429,7 @@ impl Exact {
                 let d2 = (xi.rows(0, r) - whole.rows(0, r)).amax();
                 rounding = rounding.max(d1.max(d2) / scale);
             }
+            generators.push(gen);
             y1 = xi.rows(0, r).into_owned();
         }
         Ok(Exact {
@@ -422,6 +437,7 @@ impl Exact {
             red,
             sines,
             segments,
+            generators,
             x0,
             rounding,
         })
@@ -438,7 +454,7 @@ impl Exact {
             .min(self.segments.len() - 1);
         let seg = &self.segments[k];
         let dt = (t - seg.t0).min(seg.t1 - seg.t0).max(0.0);
-        let xi = expm(&seg.generator * dt) * &seg.start;
+        let xi = expm(&self.generators[seg.generator] * dt) * &seg.start;
         let red = &self.red;
         let y1 = xi.rows(0, red.r).into_owned();
         let n = self.sys.size();

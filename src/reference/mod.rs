@@ -57,6 +57,8 @@ pub enum ReferenceError {
     },
     #[error("the exact reference cannot span the interval from {} s to {} s: the circuit's fastest rate times its length overflows double precision; shorten the run's stop time, or use reference: converged", crate::units::shortest(*t0), crate::units::shortest(*t1))]
     SpanTooLong { t0: f64, t1: f64 },
+    #[error("the exact reference would walk more than {limit} pieces by t = {} s (the circuit's fastest rate times the length of each interval between breakpoints); shorten the run's stop time, or use reference: converged", crate::units::shortest(*time))]
+    TooManySegments { limit: usize, time: f64 },
     #[error("the state at t = 0 could not be found: {0}")]
     Start(RunError),
     #[error("closed form '{formula}': {message}")]

@@ -362,3 +362,69 @@ fn an_exact_reference_over_a_very_long_run_settles_or_is_refused() {
     assert!(out.stderr.contains("cannot span"), "{}", out.stderr);
     assert!(!out.stderr.contains("panicked"));
 }
+
+/// Regression (found by a mutation sweep): a 2 MHz clock with its stop time's unit lost (0.5 s for
+/// 0.5 us) gave four million breakpoints, and building its exact reference took more than 14 GB. A run
+/// may have at most `MAX_BREAKPOINTS` (a million), counted without building them; a thousand periods
+/// pass.
+#[test]
+fn a_pulse_train_with_millions_of_corners_is_refused() {
+    let clocked = |stop: &str| {
+        GOOD.replace(
+            "value: 1 }",
+            "waveform: { pulse: { low: 0, high: 1, rise: 1n, fall: 1n, width: 200n, period: 500n } } }",
+        )
+        .replace("stop: 1u", &format!("stop: {stop}"))
+    };
+    refused(
+        "clock",
+        &clocked("0.5"),
+        &[
+            "clock.yaml:3",
+            "element v1",
+            "4000004 breakpoints",
+            "run.stop",
+        ],
+    );
+    refused("clockfar", &clocked("1e30"), &["element v1", "breakpoints"]);
+    let dir = scratch("clockok");
+    let path = dir.join("clockok.yaml");
+    std::fs::write(&path, clocked("500u")).unwrap();
+    let out = ringtrue(&["check", path.to_str().unwrap()]);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+}
+
+/// Regression (found by a mutation sweep): the exact reference stored a piece per 64 of the fastest
+/// time constant in every interval between breakpoints, with no bound, so a long clocked run of a stiff
+/// circuit could exhaust memory. A 1 ps RC under 200,000 clock periods (800,000 breakpoints, allowed)
+/// would need about 3e9 pieces; the reference now stops at its limit with exit code 2.
+#[test]
+fn an_exact_reference_past_its_piece_limit_is_refused() {
+    let dir = scratch("pieces");
+    let path = dir.join("pieces.yaml");
+    let text = GOOD
+        .replace(
+            "value: 1 }",
+            "waveform: { pulse: { low: 0, high: 1, rise: 1n, fall: 1n, width: 200n, period: 500n } } }",
+        )
+        .replace("value: 1n }", "value: 1f }")
+        .replace("stop: 1u", "stop: 100m");
+    std::fs::write(&path, text).unwrap();
+    let csv = dir.join("r.csv");
+    let out = ringtrue(&[
+        "reference",
+        "--points",
+        "5",
+        "--csv",
+        csv.to_str().unwrap(),
+        path.to_str().unwrap(),
+    ]);
+    assert_eq!(out.code, 2, "{}", out.stderr);
+    assert!(out.stderr.contains("pieces.yaml"), "{}", out.stderr);
+    assert!(
+        out.stderr.contains("more than 2000000 pieces"),
+        "{}",
+        out.stderr
+    );
+    assert!(!out.stderr.contains("panicked"));
+}
