@@ -1,7 +1,7 @@
 //! One test per validation rule: the binary exits with code 2, names the element or node, and never
 //! panics.
 
-use crate::common::{ringtrue, scratch};
+use crate::common::{ringtrue, scratch, Outcome};
 
 const GOOD: &str = "name: ok\nelements:\n  - { kind: voltage_source, name: v1, nodes: [in, gnd], value: 1 }\n  - { kind: resistor, name: r1, nodes: [in, out], value: 1k }\n  - { kind: capacitor, name: c1, nodes: [out, gnd], value: 1n }\nrun: { stop: 1u }\nwatch: [out]\n";
 
@@ -29,6 +29,24 @@ fn refused(name: &str, text: &str, needles: &[&str]) {
         out.stderr
     );
     assert!(!out.stderr.contains("panicked"), "{name}: panicked");
+}
+
+/// Writes `text` to `NAME.yaml` in a fresh scratch folder and runs `reference --points 5` on it into
+/// `r.csv` there; gives the outcome and the CSV's path.
+fn reference_of(name: &str, text: &str) -> (Outcome, std::path::PathBuf) {
+    let dir = scratch(name);
+    let path = dir.join(format!("{name}.yaml"));
+    std::fs::write(&path, text).unwrap();
+    let csv = dir.join("r.csv");
+    let out = ringtrue(&[
+        "reference",
+        "--points",
+        "5",
+        "--csv",
+        csv.to_str().unwrap(),
+        path.to_str().unwrap(),
+    ]);
+    (out, csv)
 }
 
 #[test]
@@ -322,19 +340,7 @@ fn a_capacitance_beyond_double_precision_is_refused_by_the_exact_reference() {
 /// value, 1 V (the RC's step response 1 - exp(-t / RC), closed form), and the second is refused.
 #[test]
 fn an_exact_reference_over_a_very_long_run_settles_or_is_refused() {
-    let dir = scratch("longrun");
-    let csv = dir.join("r.csv");
-    let c = csv.to_str().unwrap();
-    let path = dir.join("long.yaml");
-    std::fs::write(&path, GOOD.replace("stop: 1u", "stop: 1e35")).unwrap();
-    let out = ringtrue(&[
-        "reference",
-        "--points",
-        "5",
-        "--csv",
-        c,
-        path.to_str().unwrap(),
-    ]);
+    let (out, csv) = reference_of("long", &GOOD.replace("stop: 1u", "stop: 1e35"));
     assert_eq!(out.code, 0, "{}", out.stderr);
     let text = std::fs::read_to_string(&csv).unwrap();
     let last: Vec<f64> = text
@@ -347,16 +353,7 @@ fn an_exact_reference_over_a_very_long_run_settles_or_is_refused() {
     assert_eq!(last[0], 1e35);
     assert!((last[1] - 1.0).abs() < 1e-12, "settled value {}", last[1]);
 
-    let path = dir.join("vlong.yaml");
-    std::fs::write(&path, GOOD.replace("stop: 1u", "stop: 1e303")).unwrap();
-    let out = ringtrue(&[
-        "reference",
-        "--points",
-        "5",
-        "--csv",
-        c,
-        path.to_str().unwrap(),
-    ]);
+    let (out, _) = reference_of("vlong", &GOOD.replace("stop: 1u", "stop: 1e303"));
     assert_eq!(out.code, 2, "{}", out.stderr);
     assert!(out.stderr.contains("vlong.yaml"), "{}", out.stderr);
     assert!(out.stderr.contains("cannot span"), "{}", out.stderr);
@@ -400,8 +397,6 @@ fn a_pulse_train_with_millions_of_corners_is_refused() {
 /// would need about 3e9 pieces; the reference now stops at its limit with exit code 2.
 #[test]
 fn an_exact_reference_past_its_piece_limit_is_refused() {
-    let dir = scratch("pieces");
-    let path = dir.join("pieces.yaml");
     let text = GOOD
         .replace(
             "value: 1 }",
@@ -409,16 +404,7 @@ fn an_exact_reference_past_its_piece_limit_is_refused() {
         )
         .replace("value: 1n }", "value: 1f }")
         .replace("stop: 1u", "stop: 100m");
-    std::fs::write(&path, text).unwrap();
-    let csv = dir.join("r.csv");
-    let out = ringtrue(&[
-        "reference",
-        "--points",
-        "5",
-        "--csv",
-        csv.to_str().unwrap(),
-        path.to_str().unwrap(),
-    ]);
+    let (out, _) = reference_of("pieces", &text);
     assert_eq!(out.code, 2, "{}", out.stderr);
     assert!(out.stderr.contains("pieces.yaml"), "{}", out.stderr);
     assert!(
