@@ -89,7 +89,7 @@ pub fn decomposition_iterations(n: usize) -> usize {
 /// `EXP_DIRECT_NORM` the matrix is first divided by a power of two, exactly, and the result squared as
 /// many times: exp(M) = exp(M / 2^k)^(2^k), the same scaling and squaring (Moler and Van Loan,
 /// "Nineteen dubious ways to compute the exponential of a matrix, twenty-five years later", SIAM Review
-/// 45, 2003, method 3). Below it, nalgebra's `exp` is called unchanged.
+/// 45, 2003, method 3; from memory). Below it, nalgebra's `exp` is called unchanged.
 fn expm(m: DMatrix<f64>) -> DMatrix<f64> {
     let norm = (0..m.ncols())
         .map(|j| m.column(j).iter().map(|v| v.abs()).sum::<f64>())
