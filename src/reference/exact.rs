@@ -83,17 +83,23 @@ pub fn decomposition_iterations(n: usize) -> usize {
     100 * n + 1000
 }
 
-/// The matrix exponential of a matrix with finite entries (all NaN otherwise). nalgebra's `exp` (scaling and squaring with
-/// Pade approximants) estimates its scaling from norms of powers up to the tenth; past a norm of about
-/// 1e38 the eighth power overflows, the scaling becomes infinite and its squaring loop never ends. Above
-/// `EXP_DIRECT_NORM` the matrix is first divided by a power of two, exactly, and the result squared as
-/// many times: exp(M) = exp(M / 2^k)^(2^k), the same scaling and squaring (Moler and Van Loan,
-/// "Nineteen dubious ways to compute the exponential of a matrix, twenty-five years later", SIAM Review
-/// 45, 2003, method 3; from memory). Below it, nalgebra's `exp` is called unchanged.
-fn expm(m: DMatrix<f64>) -> DMatrix<f64> {
-    let norm = (0..m.ncols())
+/// The 1-norm (largest column sum of magnitudes).
+fn one_norm(m: &DMatrix<f64>) -> f64 {
+    (0..m.ncols())
         .map(|j| m.column(j).iter().map(|v| v.abs()).sum::<f64>())
-        .fold(0.0f64, f64::max);
+        .fold(0.0f64, f64::max)
+}
+
+/// The matrix exponential of a matrix with finite entries (all NaN otherwise). nalgebra's `exp`
+/// (scaling and squaring with Pade approximants) estimates its scaling from norms of powers up to the
+/// tenth; past a norm of about 1e38 the eighth power overflows, the scaling becomes infinite and its
+/// squaring loop never ends. Above `EXP_DIRECT_NORM` the matrix is first divided by a power of two,
+/// exactly, and the result squared as many times: exp(M) = exp(M / 2^k)^(2^k), the same scaling and
+/// squaring (Moler and Van Loan, "Nineteen dubious ways to compute the exponential of a matrix,
+/// twenty-five years later", SIAM Review 45, 2003, method 3; from memory). Below it, nalgebra's `exp`
+/// is called unchanged.
+fn expm(m: DMatrix<f64>) -> DMatrix<f64> {
+    let norm = one_norm(&m);
     if !norm.is_finite() {
         // Callers check their matrices first; NaN out rather than hand nalgebra a loop.
         return DMatrix::from_element(m.nrows(), m.ncols(), f64::NAN);
@@ -378,9 +384,7 @@ impl Exact {
             // loses accuracy in its squaring phase. The same walk at half the sub-interval estimates
             // the rounding left; one exponential over the whole segment, which squares the most, gives
             // a second, more pessimistic comparison, and the bound is the larger of the two.
-            let norm = (0..dim)
-                .map(|j| gen.column(j).iter().map(|v| v.abs()).sum::<f64>())
-                .fold(0.0f64, f64::max);
+            let norm = one_norm(&gen);
             let span = t1 - t0;
             if !(norm * span).is_finite() || gen.iter().any(|v| !v.is_finite()) {
                 return Err(ReferenceError::SpanTooLong { t0, t1 });
