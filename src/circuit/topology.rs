@@ -297,8 +297,9 @@ fn path(adj: &[Vec<(usize, usize)>], a: usize, b: usize) -> Vec<usize> {
     out
 }
 
-/// A source whose corners up to the stop time exceed `MAX_BREAKPOINTS` (counted without building
-/// them, so a stop of 1e30 s costs nothing).
+/// The element at which the sources' and switches' corners up to the stop time exceed
+/// `MAX_BREAKPOINTS` (a pulse train's counted without building them, so a stop of 1e30 s costs
+/// nothing).
 fn too_many_breakpoints(c: &Circuit) -> Option<Problem> {
     let stop = c.run.stop;
     let mut total = 0.0;
@@ -306,6 +307,7 @@ fn too_many_breakpoints(c: &Circuit) -> Option<Problem> {
         let count = match &e.kind {
             ElementKind::VoltageSource { waveform, .. }
             | ElementKind::CurrentSource { waveform, .. } => waveform.corner_count_estimate(stop),
+            ElementKind::Switch { model, .. } => model.corners().len() as f64,
             _ => 0.0,
         };
         total += count;
