@@ -8,7 +8,7 @@ use super::{
     RunSpec, SwitchModel, Waveform,
 };
 use crate::settings::{Overrides, Start};
-use crate::units::{parse_value, Quantity};
+use crate::units::{parse_value, shortest, Quantity};
 use std::collections::HashSet;
 
 struct Ctx<'a> {
@@ -43,7 +43,7 @@ impl Ctx<'_> {
                 self.push(
                     line,
                     subject.clone(),
-                    format!("{field} = {x} is not finite"),
+                    format!("{field} = {} is not finite", shortest(*x)),
                     "give a finite number",
                 );
                 None
@@ -293,7 +293,7 @@ fn build_run(cx: &mut Ctx, raw: &RawCircuit) -> RunSpec {
         cx.push(
             line,
             subject.clone(),
-            format!("stop = {stop} must be positive"),
+            format!("stop = {} must be positive", shortest(stop)),
             "give the end time of the run, e.g. stop: 10u",
         );
     }
@@ -600,7 +600,7 @@ fn build_element(
             cx.push(
                 line,
                 subject.clone(),
-                format!("{field} = {x} must be positive"),
+                format!("{field} = {} must be positive", shortest(x)),
                 &format!("give {field} as {} greater than zero", q.describe()),
             );
             None
@@ -661,7 +661,7 @@ fn build_element(
                 cx.push(
                     line,
                     subject.clone(),
-                    format!("k = {k} is out of range"),
+                    format!("k = {} is out of range", shortest(k)),
                     "give k with 0 < |k| < 1 (|k| = 1 makes the inductance matrix singular)",
                 );
                 return None;
@@ -760,7 +760,7 @@ fn build_element(
                         cx.push(
                             line,
                             subject.clone(),
-                            format!("{field} = {x} is negative"),
+                            format!("{field} = {} is negative", shortest(x)),
                             "give zero or a positive value",
                         );
                         None
@@ -905,7 +905,11 @@ fn build_element(
                 cx.push(
                     line,
                     subject.clone(),
-                    format!("on_resistance ({on}) is not below off_resistance ({off})"),
+                    format!(
+                        "on_resistance ({}) is not below off_resistance ({})",
+                        shortest(on),
+                        shortest(off)
+                    ),
                     "make the on resistance the smaller one",
                 );
                 return None;
@@ -917,7 +921,8 @@ fn build_element(
                         subject.clone(),
                         format!(
                             "toggle at {} starts before the transition begun at {} ends",
-                            w[1], w[0]
+                            shortest(w[1]),
+                            shortest(w[0])
                         ),
                         "list toggle times in increasing order, at least `transition` apart",
                     );
@@ -963,7 +968,7 @@ fn build_waveform(
             cx.push(
                 line,
                 subject.clone(),
-                format!("{field} = {x} is negative"),
+                format!("{field} = {} is negative", shortest(x)),
                 &format!("give {field} as zero or a positive time"),
             );
             None
@@ -1010,7 +1015,7 @@ fn build_waveform(
                 Some(v) => {
                     let per = cx.value(&Some(v.clone()), "period", tq, line, subject)?;
                     if per.is_nan() || per <= 0.0 || per < rise + width + fall {
-                        cx.push(line, subject.clone(), format!("period = {per} is shorter than rise + width + fall = {}", rise + width + fall), "make the period at least rise + width + fall, or remove it for a single pulse");
+                        cx.push(line, subject.clone(), format!("period = {} is shorter than rise + width + fall = {}", shortest(per), shortest(rise + width + fall)), "make the period at least rise + width + fall, or remove it for a single pulse");
                         return None;
                     }
                     Some(per)
@@ -1039,7 +1044,7 @@ fn build_waveform(
                 cx.push(
                     line,
                     subject.clone(),
-                    format!("frequency = {frequency} must be positive"),
+                    format!("frequency = {} must be positive", shortest(frequency)),
                     "give the frequency in Hz, e.g. 1MHz",
                 );
                 return None;
@@ -1051,7 +1056,10 @@ fn build_waveform(
                 cx.push(
                     line,
                     subject.clone(),
-                    format!("decay = {decay} is negative: the sine would grow without bound"),
+                    format!(
+                        "decay = {} is negative: the sine would grow without bound",
+                        shortest(decay)
+                    ),
                     "give a decay rate of zero or more (1/s)",
                 );
                 return None;
@@ -1093,7 +1101,7 @@ fn build_waveform(
                 )?;
                 if let Some(&(prev, _)) = out.last() {
                     if t <= prev {
-                        cx.push(line, subject.clone(), format!("piecewise_linear time {t} at point {} is not after the previous time {prev}", i + 1), "make the times strictly increasing");
+                        cx.push(line, subject.clone(), format!("piecewise_linear time {} at point {} is not after the previous time {}", shortest(t), i + 1, shortest(prev)), "make the times strictly increasing");
                         return None;
                     }
                 }
@@ -1101,7 +1109,7 @@ fn build_waveform(
                     cx.push(
                         line,
                         subject.clone(),
-                        format!("piecewise_linear time {t} is negative"),
+                        format!("piecewise_linear time {} is negative", shortest(t)),
                         "start the times at 0 or later",
                     );
                     return None;

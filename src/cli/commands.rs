@@ -73,7 +73,7 @@ pub fn check(file: &Path) -> Result<(), Failure> {
     println!(
         "  breakpoints: {} in (0, {} s], counting the stop time",
         c.breakpoints().len(),
-        c.run.stop
+        ringtrue::units::shortest(c.run.stop)
     );
     println!("  start:       {}", c.run.start.as_str());
     let watch: Vec<String> = c.watch.iter().map(|p| p.label()).collect();
@@ -679,7 +679,7 @@ pub fn inspect(wave: &Path, signal: &str, target: f64, json: Option<&Path>) -> R
         let (ti, vi) = (parse(0)?, parse(col)?);
         if let Some(&last) = t.last() {
             if ti <= last {
-                return Err(bad(format!("line {}: time {ti} does not increase; the first column must be strictly increasing time", i + 2)));
+                return Err(bad(format!("line {}: time {} does not increase; the first column must be strictly increasing time", i + 2, ringtrue::units::shortest(ti))));
             }
         }
         t.push(ti);

@@ -391,6 +391,37 @@ fn a_pulse_train_with_millions_of_corners_is_refused() {
     assert_eq!(out.code, 0, "{}", out.stderr);
 }
 
+/// Regression: numbers in messages were written with `{}`, so a period of 1e-300 came out as a
+/// 300-digit decimal and `check`'s report of a stop of 1e-300 s likewise.
+#[test]
+fn numbers_in_messages_are_written_in_shortest_form() {
+    let pulse = |period: &str, stop: &str| {
+        GOOD.replace(
+            "value: 1 }",
+            &format!("waveform: {{ pulse: {{ low: 0, high: 1, rise: 1n, fall: 1n, width: 200n, period: {period} }} }} }}"),
+        )
+        .replace("stop: 1u", &format!("stop: {stop}"))
+    };
+    let dir = scratch("tinyperiod");
+    let path = dir.join("tinyperiod.yaml");
+    std::fs::write(&path, pulse("1e-300", "1u")).unwrap();
+    let out = ringtrue(&["check", path.to_str().unwrap()]);
+    assert_eq!(out.code, 2, "{}", out.stderr);
+    assert!(
+        out.stderr.contains("period = 1e-300 is shorter"),
+        "{}",
+        out.stderr
+    );
+    let path = dir.join("tinystop.yaml");
+    std::fs::write(&path, pulse("500n", "1e-300")).unwrap();
+    let out = ringtrue(&["check", path.to_str().unwrap()]);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    assert!(out.stdout.contains("(0, 1e-300 s]"), "{}", out.stdout);
+    for line in out.stdout.lines() {
+        assert!(line.len() < 200, "line of {} chars: {line}", line.len());
+    }
+}
+
 /// Regression (found by a mutation sweep): the exact reference stored a piece per 64 of the fastest
 /// time constant in every interval between breakpoints, with no bound, so a long clocked run of a stiff
 /// circuit could exhaust memory. A 1 ps RC under 200,000 clock periods (800,000 breakpoints, allowed)
