@@ -323,7 +323,11 @@ fn too_many_breakpoints(c: &Circuit) -> Option<Problem> {
                     } else {
                         "brings the sources to"
                     },
-                    crate::units::shortest(total.round()),
+                    if total < 1e16 {
+                        crate::units::shortest(total.round())
+                    } else {
+                        format!("{total:.2e}")
+                    },
                     crate::units::shortest(stop),
                     crate::units::shortest(super::MAX_BREAKPOINTS)
                 ),
