@@ -32,6 +32,20 @@ pub enum RunError {
     StepBudget { time: f64, stop: f64, budget: u64 },
 
     #[error(
+        "{} {} s over stop = {} s need at least {} steps, more than the run's budget of {budget} steps; {}",
+        if *fixed { "steps of" } else { "steps of at most" },
+        shortest(*step), shortest(*stop), shortest(*least),
+        if *fixed { "lengthen the fixed step, or raise run.step_budget" } else { "raise max_step (run.max_step, --max-step or the plan's max_step), or raise run.step_budget" }
+    )]
+    BudgetBelowLeastSteps {
+        step: f64,
+        fixed: bool,
+        stop: f64,
+        least: f64,
+        budget: u64,
+    },
+
+    #[error(
         "the operating point was not found: Newton failed, then shunt stepping and source stepping failed too; the worst equation is the current balance of {worst} (residual {}); check for a missing DC path or extreme values near it, or set run.start: initial_conditions",
         shortest(*residual)
     )]

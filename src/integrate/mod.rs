@@ -486,6 +486,24 @@ pub fn simulate_system(
     settings.validate()?;
     let clock = Instant::now();
     let sc = &settings.steps;
+    // Steps no longer than a cap cannot cover the run in fewer than stop / cap of them: refuse at
+    // once rather than spend the whole budget first (a max step of 1 ps over 60 ms needs 6e10).
+    let cap = sc.fixed_step.unwrap_or(sc.effective_max_step(stop));
+    let ratio = stop / cap;
+    let least = if (ratio - ratio.round()).abs() <= 1e-9 * ratio {
+        ratio.round()
+    } else {
+        ratio.ceil()
+    };
+    if least > sc.step_budget as f64 {
+        return Err(RunError::BudgetBelowLeastSteps {
+            step: cap,
+            fixed: sc.fixed_step.is_some(),
+            stop,
+            least,
+            budget: sc.step_budget,
+        });
+    }
     let mut start_newton = Newton::for_system(sys);
     start_newton.set_backend(settings.linear_solver);
     let x0 = initial_state(sys, settings, &mut start_newton)?;

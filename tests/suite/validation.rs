@@ -450,3 +450,58 @@ fn an_exact_reference_past_its_piece_limit_is_refused() {
     );
     assert!(!out.stderr.contains("panicked"));
 }
+
+/// Regression: a max step or fixed step far below the run's length ran until the step budget was
+/// spent (31 s for the converged reference with a max step of 1 ps over 60 ms) before saying so; the
+/// run now stops before its first step, naming the least number of steps it would need.
+#[test]
+fn a_step_cap_that_cannot_finish_within_the_budget_is_refused_before_running() {
+    let dir = scratch("stepcap");
+    let path = dir.join("stepcap.yaml");
+    let text = GOOD.replace("stop: 1u", "stop: 60m, max_step: 1p");
+    std::fs::write(&path, text).unwrap();
+    let p = path.to_str().unwrap();
+    let csv = dir.join("w.csv");
+    let c = csv.to_str().unwrap();
+    let out = ringtrue(&["simulate", p, "--method", "trapezoidal", "--csv", c]);
+    assert_eq!(out.code, 1, "{}", out.stderr);
+    assert!(
+        out.stderr
+            .contains("steps of at most 1e-12 s over stop = 0.06 s need at least 60000000000 steps, more than the run's budget of 2000000 steps"),
+        "{}",
+        out.stderr
+    );
+    let out = ringtrue(&[
+        "simulate",
+        p,
+        "--method",
+        "bdf2",
+        "--fixed-step",
+        "1n",
+        "--csv",
+        c,
+    ]);
+    assert_eq!(out.code, 1, "{}", out.stderr);
+    assert!(
+        out.stderr
+            .contains("steps of 1e-9 s over stop = 0.06 s need at least 60000000 steps"),
+        "{}",
+        out.stderr
+    );
+    // At the budget exactly the run goes ahead: 1 ms in fixed steps of 1 us is 1000 steps.
+    let ok = GOOD.replace("stop: 1u", "stop: 1m");
+    std::fs::write(&path, ok).unwrap();
+    let out = ringtrue(&[
+        "simulate",
+        p,
+        "--method",
+        "bdf2",
+        "--fixed-step",
+        "1u",
+        "--step-budget",
+        "1000",
+        "--csv",
+        c,
+    ]);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+}
