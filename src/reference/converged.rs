@@ -56,9 +56,13 @@ pub fn rung_settings(circuit: &Circuit, base: &Settings, rtol: f64, peaks: (f64,
     s.steps.max_step = Some(base.steps.max_step.map_or(limit, |m| m.min(limit)));
     s.steps.fixed_step = None;
     s.steps.restart = Restart::BackwardEuler;
-    s.steps.step_budget = 20_000_000;
+    // The rungs need many more steps than a run; a larger budget set for the circuit still counts.
+    s.steps.step_budget = base.steps.step_budget.max(RUNG_STEP_BUDGET);
     s
 }
+
+/// The least step budget of each rung (a file's `run.step_budget` above it is used instead).
+pub const RUNG_STEP_BUDGET: u64 = 20_000_000;
 
 impl Converged {
     pub fn new(circuit: &Circuit, settings: &Settings) -> Result<Converged, ReferenceError> {

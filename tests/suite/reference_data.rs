@@ -116,3 +116,17 @@ fn converged_matches_radau_data_on_the_clamp_within_its_bound() {
         r.error_bound
     );
 }
+
+/// Regression: the converged reference's rungs used a budget of 2e7 steps whatever the file said,
+/// while its budget message told the user to raise run.step_budget; a larger budget now counts.
+#[test]
+fn the_converged_reference_honours_a_larger_step_budget() {
+    use ringtrue::reference::converged::{rung_settings, RUNG_STEP_BUDGET};
+    let (c, _) = circuit::load(&root().join("reference_circuits/usb-rectifier.yaml")).unwrap();
+    let mut base = Settings::new(MethodName::Trapezoidal);
+    let rung = rung_settings(&c, &base, 1e-9, (1.0, 1e-3));
+    assert_eq!(rung.steps.step_budget, RUNG_STEP_BUDGET);
+    base.steps.step_budget = 3 * RUNG_STEP_BUDGET;
+    let rung = rung_settings(&c, &base, 1e-9, (1.0, 1e-3));
+    assert_eq!(rung.steps.step_budget, 3 * RUNG_STEP_BUDGET);
+}
