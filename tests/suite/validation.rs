@@ -458,50 +458,37 @@ fn an_exact_reference_past_its_piece_limit_is_refused() {
 fn a_step_cap_that_cannot_finish_within_the_budget_is_refused_before_running() {
     let dir = scratch("stepcap");
     let path = dir.join("stepcap.yaml");
-    let text = GOOD.replace("stop: 1u", "stop: 60m, max_step: 1p");
-    std::fs::write(&path, text).unwrap();
-    let p = path.to_str().unwrap();
     let csv = dir.join("w.csv");
-    let c = csv.to_str().unwrap();
-    let out = ringtrue(&["simulate", p, "--method", "trapezoidal", "--csv", c]);
-    assert_eq!(out.code, 1, "{}", out.stderr);
-    assert!(
-        out.stderr
-            .contains("steps of at most 1e-12 s over stop = 0.06 s need at least 60000000000 steps, more than the run's budget of 2000000 steps"),
-        "{}",
-        out.stderr
-    );
-    let out = ringtrue(&[
-        "simulate",
-        p,
-        "--method",
-        "bdf2",
-        "--fixed-step",
-        "1n",
-        "--csv",
-        c,
-    ]);
-    assert_eq!(out.code, 1, "{}", out.stderr);
-    assert!(
-        out.stderr
-            .contains("steps of 1e-9 s over stop = 0.06 s need at least 60000000 steps"),
-        "{}",
-        out.stderr
-    );
+    let (p, c) = (path.to_str().unwrap(), csv.to_str().unwrap());
+    let simulate = |extra: &[&str]| {
+        let mut args = vec!["simulate", p, "--csv", c];
+        args.extend_from_slice(extra);
+        ringtrue(&args)
+    };
+    std::fs::write(&path, GOOD.replace("stop: 1u", "stop: 60m, max_step: 1p")).unwrap();
+    for (extra, needle) in [
+        (
+            &["--method", "trapezoidal"][..],
+            "steps of at most 1e-12 s over stop = 0.06 s need at least 60000000000 steps, more than the run's budget of 2000000 steps",
+        ),
+        (
+            &["--method", "bdf2", "--fixed-step", "1n"][..],
+            "steps of 1e-9 s over stop = 0.06 s need at least 60000000 steps",
+        ),
+    ] {
+        let out = simulate(extra);
+        assert_eq!(out.code, 1, "{}", out.stderr);
+        assert!(out.stderr.contains(needle), "{}", out.stderr);
+    }
     // At the budget exactly the run goes ahead: 1 ms in fixed steps of 1 us is 1000 steps.
-    let ok = GOOD.replace("stop: 1u", "stop: 1m");
-    std::fs::write(&path, ok).unwrap();
-    let out = ringtrue(&[
-        "simulate",
-        p,
+    std::fs::write(&path, GOOD.replace("stop: 1u", "stop: 1m")).unwrap();
+    let out = simulate(&[
         "--method",
         "bdf2",
         "--fixed-step",
         "1u",
         "--step-budget",
         "1000",
-        "--csv",
-        c,
     ]);
     assert_eq!(out.code, 0, "{}", out.stderr);
 }
